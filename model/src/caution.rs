@@ -1,0 +1,70 @@
+//! Cautions as data: every computing result carries a list of them, so that a configurator
+//! can show them next to the numbers. The standing safety caution is always first.
+
+use serde::Serialize;
+
+/// What a caution is about, for programs that filter or highlight them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
+#[serde(rename_all = "snake_case")]
+pub enum CautionKind {
+    /// The standing caution on estimates, certification and magnet handling.
+    Safety,
+    /// The load exceeds the peak braking force: the brake cannot hold it.
+    Runaway,
+    /// Magnet temperature near or above the grade's maximum working temperature.
+    MagnetTemperature,
+    /// Very small radial clearance between magnet and bore.
+    Clearance,
+    /// Perforation beyond the range where the effective-conductivity rule is reliable.
+    Perforation,
+    /// Inputs near or beyond the model's physical limits.
+    ModelLimit,
+    /// A value was assumed because the input did not give it.
+    Assumption,
+    /// Numerical resolution or convergence remark.
+    Numerical,
+    /// Risk of demagnetisation in the chosen arrangement.
+    Demagnetisation,
+    /// The tube heats markedly.
+    Heating,
+}
+
+/// One caution.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
+pub struct Caution {
+    /// What it is about.
+    pub kind: CautionKind,
+    /// The caution in words.
+    pub message: String,
+}
+
+impl Caution {
+    /// A caution of `kind` with `message`.
+    pub fn new(kind: CautionKind, message: impl Into<String>) -> Self {
+        Self {
+            kind,
+            message: message.into(),
+        }
+    }
+
+    /// The standing safety caution carried by every computing result.
+    pub fn standing_safety() -> Self {
+        Self::new(
+            CautionKind::Safety,
+            "Results are engineering estimates from an idealised axisymmetric model (non-ferrous tube, \
+             relative permeability 1, no iron pole pieces). Brakes and dampers that protect or carry \
+             people need physical testing and certification under the applicable standards, local codes \
+             and licensed engineers. Strong magnets pinch fingers, shatter, and can affect pacemakers and \
+             other implants.",
+        )
+    }
+}
+
+/// Appends `c` unless a caution with the same message is already present.
+pub fn push_unique(list: &mut Vec<Caution>, c: Caution) {
+    if !list.iter().any(|x| x.message == c.message) {
+        list.push(c);
+    }
+}
