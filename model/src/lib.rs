@@ -15,14 +15,26 @@ pub mod design;
 pub mod elliptic;
 pub mod error;
 pub mod flux;
+pub mod forcecurve;
 pub mod inductance;
+pub mod limits;
 pub mod materials;
+pub mod report;
 pub mod spec;
+pub mod spectral;
+pub mod stroke;
+pub mod transient;
 
 pub use caution::{Caution, CautionKind};
 pub use design::Design;
 pub use error::{FieldError, ModelError};
+pub use forcecurve::{ForceCurve, ForceCurveOptions, ForcePoint};
+pub use limits::Limits;
+pub use report::{Discretisation, Fidelity, ModelInfo};
 pub use spec::DesignSpec;
+pub use spectral::force_curve;
+pub use stroke::{Stroke, StrokeEnd, StrokeOptions, StrokeSeries, StrokeSummary};
+pub use transient::simulate_stroke;
 
 /// Vacuum permeability, H/m, the classical defined value 4 pi 1e-7 (the 2019 SI value differs
 /// by 5.5e-10 relative, far below every other uncertainty here).

@@ -1,0 +1,52 @@
+//! Work limits: caps that keep one job within a bounded time and memory. The service sets
+//! them from its configuration; exceeding one is a [`ModelError::TooLarge`] naming the field
+//! that drives the size.
+
+use crate::error::ModelError;
+
+/// Caps on the size of a job.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Limits {
+    /// Most speeds in one force curve.
+    pub max_speeds: usize,
+    /// Most ring cells (axial rings x radial layers) in one ring-circuit run.
+    pub max_ring_cells: usize,
+    /// Most time steps in one stroke.
+    pub max_steps: usize,
+    /// Longest simulated time, s.
+    pub max_time_s: f64,
+    /// Most samples in a returned series.
+    pub max_samples: usize,
+    /// Most radial layers.
+    pub max_radial_layers: usize,
+    /// Most points in one sweep.
+    pub max_sweep_points: usize,
+}
+
+impl Default for Limits {
+    fn default() -> Self {
+        Self {
+            max_speeds: 2000,
+            max_ring_cells: 20_000,
+            max_steps: 2_000_000,
+            max_time_s: 3600.0,
+            max_samples: 20_000,
+            max_radial_layers: 32,
+            max_sweep_points: 10_000,
+        }
+    }
+}
+
+impl Limits {
+    /// Checks `value <= cap`, naming `path` otherwise.
+    pub fn check(path: &str, what: &str, value: usize, cap: usize) -> Result<(), ModelError> {
+        if value > cap {
+            Err(ModelError::TooLarge {
+                path: path.to_string(),
+                message: format!("{what} would be {value}, above the service limit of {cap}"),
+            })
+        } else {
+            Ok(())
+        }
+    }
+}

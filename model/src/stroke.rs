@@ -1,0 +1,111 @@
+//! Inputs and results of a stroke simulation (the solver is in [`crate::transient`]).
+
+use crate::caution::Caution;
+use crate::report::{Fidelity, ModelInfo};
+use serde::Serialize;
+
+/// How a stroke is run.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StrokeOptions {
+    /// Start position of the stack centre, m (entry end of the tube at 0; negative = above it).
+    pub start_position_m: f64,
+    /// Start speed along travel, m/s.
+    pub start_speed_m_per_s: f64,
+    /// Longest simulated time, s.
+    pub max_time_s: f64,
+    /// Requested fidelity.
+    pub fidelity: Fidelity,
+    /// Points in the returned series.
+    pub samples: usize,
+    /// Axial ring width override, m (default chosen from the geometry).
+    pub ring_width_m: Option<f64>,
+    /// Radial layer count override (default chosen from the wall and skin depth).
+    pub radial_layers: Option<usize>,
+}
+
+impl Default for StrokeOptions {
+    fn default() -> Self {
+        Self {
+            start_position_m: 0.0,
+            start_speed_m_per_s: 0.0,
+            max_time_s: 60.0,
+            fidelity: Fidelity::Auto,
+            samples: 200,
+            ring_width_m: None,
+            radial_layers: None,
+        }
+    }
+}
+
+/// Why a stroke ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
+#[serde(rename_all = "snake_case")]
+pub enum StrokeEnd {
+    /// The stack centre passed the far end by one stack length.
+    PassedTube,
+    /// The stack stopped (friction, uphill, or no drive).
+    Stopped,
+    /// `max_time_s` was reached.
+    TimeLimit,
+}
+
+/// Scalar results of a stroke.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
+pub struct StrokeSummary {
+    /// Time at which the stack centre reaches the far end (`tube.length_m`), s; None if never.
+    pub exit_time_s: Option<f64>,
+    /// Speed at that moment, m/s; None if never.
+    pub exit_speed_m_per_s: Option<f64>,
+    /// Largest speed, m/s.
+    pub max_speed_m_per_s: f64,
+    /// Largest deceleration (braking beyond the driving force), m/s^2.
+    pub max_deceleration_m_per_s2: f64,
+    /// Largest braking force, N.
+    pub max_braking_force_n: f64,
+    /// Energy dissipated in the tube, J.
+    pub heat_j: f64,
+    /// Adiabatic temperature rise of the swept tube, K; None when the tube's heat capacity is unknown.
+    pub tube_temperature_rise_k: Option<f64>,
+    /// Relative imbalance of the energy ledger (work in vs kinetic + heat + magnetic + friction).
+    pub energy_balance_error: f64,
+    /// Why the run ended.
+    pub end_reason: StrokeEnd,
+    /// Simulated time at the end, s.
+    pub end_time_s: f64,
+    /// Position of the stack centre at the end, m.
+    pub end_position_m: f64,
+    /// Speed at the end, m/s.
+    pub end_speed_m_per_s: f64,
+}
+
+/// Equal-length series, downsampled to the requested number of samples.
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
+#[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
+pub struct StrokeSeries {
+    /// Time, s.
+    pub time_s: Vec<f64>,
+    /// Stack centre position, m.
+    pub position_m: Vec<f64>,
+    /// Speed, m/s.
+    pub speed_m_per_s: Vec<f64>,
+    /// Braking force (positive opposes motion), N.
+    pub force_n: Vec<f64>,
+    /// Power dissipated in the tube, W.
+    pub power_w: Vec<f64>,
+}
+
+/// A simulated stroke.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
+pub struct Stroke {
+    /// Scalar results.
+    pub summary: StrokeSummary,
+    /// Time series.
+    pub series: StrokeSeries,
+    /// Cautions, the standing safety caution first.
+    pub cautions: Vec<Caution>,
+    /// Method and resolution.
+    pub model: ModelInfo,
+}
