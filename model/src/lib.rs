@@ -23,6 +23,7 @@ pub mod report;
 pub mod spec;
 pub mod spectral;
 pub mod stroke;
+pub mod symeig;
 pub mod transient;
 
 pub use caution::{Caution, CautionKind};

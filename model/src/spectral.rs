@@ -1,17 +1,560 @@
-//! Steady state in a long tube by the spectral method (work in progress in this commit).
+//! Steady braking in a long uniform tube by the spectral (axial Fourier) method.
+//!
+//! In the magnet's rest frame the tube streams past at speed v and every field is steady, so
+//! an axial Fourier transform f^(kappa) = integral f e^{-i kappa z} dz decouples wavenumbers.
+//! The wall is cut into radial layers j (radius r_j, thickness w_j; Gauss-Legendre in r),
+//! each a sheet of azimuthal current density K_j with resistance parameter
+//! alpha_j = 2 pi r_j / (sigma w_j). Per wavenumber the sheet currents obey
+//!
+//!   (diag(alpha) - i kappa v Mhat) Khat = i kappa v Phihat,
+//!
+//! with Mhat(kappa; r1, r2) = 2 pi mu0 r< r> I1(|kappa| r<) K1(|kappa| r>), the transform of
+//! Maxwell's coaxial-loop mutual inductance (Smythe, Static and Dynamic Electricity, 1950,
+//! ch. 7; the Bessel representation of the loop vector potential), and Phihat_j the transform
+//! of the magnet flux through layer j. The dissipated power gives the braking force
+//! F(v) = (1 / (2 pi v)) sum_j alpha_j integral |Khat_j|^2 dkappa.
+//!
+//! Speed enters only through kappa v, so with S = D Mhat D, D = diag(alpha^{-1/2}), and the
+//! symmetric eigen-decomposition S = Q diag(lambda) Q^T (one per wavenumber, shared by every
+//! speed), the force collapses to
+//!
+//!   F(v) = (v / pi) integral_0^inf |s(kappa)|^2 kappa^2 sum_n h_n^2 / (1 + (kappa v lambda_n)^2) dkappa,
+//!
+//! where h = Q^T D Psi, Psi_j = K_s [Mhat(Ro, r_j) - Mhat(Ri, r_j)] is the single-magnet
+//! sheet kernel and s(kappa) = (2 sin(kappa Lm / 2) / kappa) sum_i s_i e^{-i kappa o_i}
+//! carries the stack's length, offsets o_i and polarities s_i. The stack factor |s|^2
+//! oscillates with period 2 pi / (stack length); everything else is smooth. So the smooth part
+//! is sampled on a graded grid of nodes and |s|^2 is integrated exactly enough against the
+//! piecewise-linear hat functions of that grid once per design (product integration); each
+//! speed then costs one pass over the nodes. At v -> 0 the formula reduces, by Parseval, to
+//! the quasi-static ring sum c = sum_j integral (dPhi_j/dz)^2 / alpha_j dz.
 
+use crate::MU0;
+use crate::bessel::{i1_k1, i1e, k1e};
+use crate::caution::{Caution, CautionKind, push_unique};
 use crate::design::Design;
 use crate::error::ModelError;
-use crate::forcecurve::{ForceCurve, ForceCurveOptions};
+use crate::forcecurve::{ForceCurve, ForceCurveOptions, ForcePoint};
 use crate::limits::Limits;
+use crate::report::{Discretisation, Fidelity, ModelInfo};
+use crate::symeig::jacobi;
+use std::f64::consts::PI;
 
-/// The steady force-speed curve of `design` in a long tube.
+/// Radial layers used by default, before the wall-thickness rule (see [`default_layers`]).
+pub const MIN_LAYERS: usize = 4;
+/// Hard cap on radial layers.
+pub const MAX_LAYERS: usize = 32;
+
+/// Wavenumber resolution of one solver: nodes per unit of log-wavenumber and the reach.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Grid {
+    /// Nodes per unit of u, where kappa = kappa_c (e^u - 1).
+    nodes_per_unit: f64,
+    /// e-folds of the magnet-to-wall decay integrated.
+    reach_efolds: f64,
+}
+
+const FINE: Grid = Grid {
+    nodes_per_unit: 40.0,
+    reach_efolds: 40.0,
+};
+const COARSE: Grid = Grid {
+    nodes_per_unit: 20.0,
+    reach_efolds: 30.0,
+};
+
+/// One wavenumber node: the eigenvalues and squared projections at that node, and the
+/// product-integration weight of the stack factor.
+#[derive(Debug, Clone)]
+struct Node {
+    /// weight_i * kappa^2 * h_n^2 for each mode n.
+    strength: Vec<f64>,
+    /// kappa * lambda_n for each mode n (s/m).
+    time_scale: Vec<f64>,
+}
+
+/// Steady-state braking force of one design in a long tube, ready for any speed.
+#[derive(Debug, Clone)]
+pub struct SteadySolver {
+    nodes: Vec<Node>,
+    layers: usize,
+    max_kappa: f64,
+}
+
+/// Default radial layers: thin walls need few (the eddy current is nearly uniform across them
+/// at the speeds of interest), thick walls more. Refined by the caller's override.
+pub fn default_layers(design: &Design) -> usize {
+    let w = design.tube.wall_thickness_m();
+    let a = design.tube.inner_radius_m;
+    (MIN_LAYERS + (8.0 * w / a).ceil() as usize).clamp(MIN_LAYERS, 16)
+}
+
+impl SteadySolver {
+    /// Builds the solver with `radial_layers` layers (default from [`default_layers`]).
+    pub fn new(design: &Design, radial_layers: Option<usize>) -> Result<Self, ModelError> {
+        let layers = radial_layers.unwrap_or_else(|| default_layers(design));
+        if layers == 0 || layers > MAX_LAYERS {
+            return Err(ModelError::field(
+                "radial_layers",
+                format!("must be between 1 and {MAX_LAYERS}"),
+            ));
+        }
+        Ok(Self::build(design, layers, FINE))
+    }
+
+    fn build(design: &Design, layers: usize, grid: Grid) -> Self {
+        let tube = &design.tube;
+        let stack = &design.magnets;
+        let (a, b) = (tube.inner_radius_m, tube.outer_radius_m);
+        let sigma = tube.conductivity_s_per_m;
+
+        // Radial layers at Gauss-Legendre points of [a, b].
+        let (xs, ws) = gauss_legendre(layers);
+        let radii: Vec<f64> = xs.iter().map(|x| a + 0.5 * (b - a) * (1.0 + x)).collect();
+        let widths: Vec<f64> = ws.iter().map(|w| 0.5 * (b - a) * w).collect();
+        let alpha: Vec<f64> = radii
+            .iter()
+            .zip(&widths)
+            .map(|(r, w)| 2.0 * PI * r / (sigma * w))
+            .collect();
+        let d: Vec<f64> = alpha.iter().map(|x| 1.0 / x.sqrt()).collect();
+
+        // Graded wavenumber grid: kappa = kc (e^u - 1), fine near zero (scale 1/b) and
+        // reaching past the decay length of the magnet-to-wall gap.
+        let gap = a - stack.outer_radius_m;
+        let kc = 0.25 / b;
+        let kmax = (grid.reach_efolds / (2.0 * gap))
+            .max(60.0 / b)
+            .max(20.0 / stack.magnet_length_m.min(b));
+        let umax = (1.0 + kmax / kc).ln();
+        let n_nodes = (umax * grid.nodes_per_unit).ceil() as usize + 1;
+        let kappas: Vec<f64> = (0..n_nodes)
+            .map(|i| kc * ((umax * i as f64 / (n_nodes - 1) as f64).exp() - 1.0))
+            .collect();
+
+        let weights = stack_weights(design, &kappas);
+        let ks = stack.surface_current_a_per_m();
+        let (ro, ri) = (stack.outer_radius_m, stack.inner_radius_m);
+
+        let mut nodes = Vec::with_capacity(n_nodes);
+        let mut mat = vec![0.0; layers * layers];
+        let mut psi = vec![0.0; layers];
+        let mut ie = vec![0.0; layers];
+        let mut ke = vec![0.0; layers];
+        for (&kappa, &weight) in kappas.iter().zip(&weights) {
+            if kappa == 0.0 || weight == 0.0 {
+                continue;
+            }
+            // Scaled Bessel values once per radius; the layer radii ascend, so for j <= i,
+            // Mhat_ij = 2 pi mu0 r_j r_i I1(kappa r_j) K1(kappa r_i).
+            for i in 0..layers {
+                ie[i] = i1e(kappa * radii[i]);
+                ke[i] = k1e(kappa * radii[i]);
+            }
+            let ie_outer = i1e(kappa * ro);
+            let ie_inner = if ri > 0.0 { i1e(kappa * ri) } else { 0.0 };
+            for i in 0..layers {
+                for j in 0..=i {
+                    let m = 2.0
+                        * PI
+                        * MU0
+                        * radii[j]
+                        * radii[i]
+                        * ie[j]
+                        * ke[i]
+                        * (kappa * (radii[j] - radii[i])).exp();
+                    mat[i * layers + j] = d[i] * m * d[j];
+                    mat[j * layers + i] = d[i] * m * d[j];
+                }
+                let sheet = |r: f64, ie_r: f64| {
+                    2.0 * PI * MU0 * r * radii[i] * ie_r * ke[i] * (kappa * (r - radii[i])).exp()
+                };
+                let mut p = sheet(ro, ie_outer);
+                if ri > 0.0 {
+                    p -= sheet(ri, ie_inner);
+                }
+                psi[i] = ks * p * d[i];
+            }
+            let eig = jacobi(&mat, layers);
+            let mut strength = Vec::with_capacity(layers);
+            let mut time_scale = Vec::with_capacity(layers);
+            for n in 0..layers {
+                let q = &eig.vectors[n * layers..(n + 1) * layers];
+                let h: f64 = q.iter().zip(&psi).map(|(qi, pi)| qi * pi).sum();
+                strength.push(weight * kappa * kappa * h * h);
+                time_scale.push(kappa * eig.values[n].max(0.0));
+            }
+            nodes.push(Node {
+                strength,
+                time_scale,
+            });
+        }
+        Self {
+            nodes,
+            layers,
+            max_kappa: kmax,
+        }
+    }
+
+    /// Braking force at steady speed `speed_m_per_s` (> 0), N. Even in v by symmetry of the tube.
+    pub fn force_n(&self, speed_m_per_s: f64) -> f64 {
+        let v = speed_m_per_s.abs();
+        let mut sum = 0.0;
+        for node in &self.nodes {
+            for (s, t) in node.strength.iter().zip(&node.time_scale) {
+                let x = t * v;
+                sum += s / x.mul_add(x, 1.0);
+            }
+        }
+        v * sum / PI
+    }
+
+    /// Low-speed damping coefficient dF/dv at v = 0, N s/m.
+    pub fn damping_n_s_per_m(&self) -> f64 {
+        self.nodes
+            .iter()
+            .map(|n| n.strength.iter().sum::<f64>())
+            .sum::<f64>()
+            / PI
+    }
+
+    /// Number of radial layers.
+    pub fn layers(&self) -> usize {
+        self.layers
+    }
+
+    /// Wavenumber nodes in the integral.
+    pub fn nodes(&self) -> usize {
+        self.nodes.len()
+    }
+
+    /// Peak force and the speed where it occurs: a log-spaced scan then golden-section
+    /// refinement of the largest sample.
+    pub fn peak(&self, reference_speed_m_per_s: f64) -> (f64, f64) {
+        let mut lo = reference_speed_m_per_s * 1e-4;
+        let mut hi = reference_speed_m_per_s * 1e4;
+        // Widen until the scan's maximum is interior (F rises as v, falls at least as v^-1/2).
+        for _ in 0..6 {
+            let (vbest, idx, n) = self.scan_max(lo, hi, 49);
+            if idx == 0 {
+                lo /= 1e3;
+            } else if idx == n - 1 {
+                hi *= 1e3;
+            } else {
+                let ratio = (hi / lo).powf(1.0 / (n - 1) as f64);
+                return self.golden(vbest / ratio, vbest * ratio);
+            }
+        }
+        let (v, _, _) = self.scan_max(lo, hi, 49);
+        (v, self.force_n(v))
+    }
+
+    fn scan_max(&self, lo: f64, hi: f64, n: usize) -> (f64, usize, usize) {
+        let mut best = (lo, 0, f64::MIN);
+        for i in 0..n {
+            let v = lo * (hi / lo).powf(i as f64 / (n - 1) as f64);
+            let f = self.force_n(v);
+            if f > best.2 {
+                best = (v, i, f);
+            }
+        }
+        (best.0, best.1, n)
+    }
+
+    fn golden(&self, mut lo: f64, mut hi: f64) -> (f64, f64) {
+        // Golden-section search in log v.
+        let g = (5.0_f64.sqrt() - 1.0) / 2.0;
+        let (mut a, mut b) = (lo.ln(), hi.ln());
+        let mut c = b - g * (b - a);
+        let mut d = a + g * (b - a);
+        let mut fc = self.force_n(c.exp());
+        let mut fd = self.force_n(d.exp());
+        for _ in 0..80 {
+            if fc > fd {
+                b = d;
+                d = c;
+                fd = fc;
+                c = b - g * (b - a);
+                fc = self.force_n(c.exp());
+            } else {
+                a = c;
+                c = d;
+                fc = fd;
+                d = a + g * (b - a);
+                fd = self.force_n(d.exp());
+            }
+            if (b - a).abs() < 1e-7 {
+                break;
+            }
+        }
+        lo = a.exp();
+        hi = b.exp();
+        let v = (lo * hi).sqrt();
+        (v, self.force_n(v))
+    }
+
+    /// Smallest speed on the rising branch at which the braking force equals `drive_n`
+    /// (0 < drive_n <= peak), by bracketing and bisection in log v.
+    pub fn speed_for_force(&self, drive_n: f64, critical_speed_m_per_s: f64) -> Option<f64> {
+        if drive_n <= 0.0 {
+            return Some(0.0);
+        }
+        // The linear-law estimate drive / c brackets the answer from below (F <= c v).
+        let c = self.damping_n_s_per_m();
+        let mut lo = (drive_n / c).min(critical_speed_m_per_s);
+        if self.force_n(lo) >= drive_n {
+            return Some(lo);
+        }
+        let hi0 = critical_speed_m_per_s;
+        if self.force_n(hi0) < drive_n {
+            return None;
+        }
+        let mut hi = hi0;
+        for _ in 0..200 {
+            let mid = (lo * hi).sqrt();
+            if self.force_n(mid) >= drive_n {
+                hi = mid;
+            } else {
+                lo = mid;
+            }
+            if hi / lo - 1.0 < 1e-11 {
+                break;
+            }
+        }
+        Some(0.5 * (lo + hi))
+    }
+}
+
+/// Mhat(kappa; r1, r2) = 2 pi mu0 r< r> I1(kappa r<) K1(kappa r>), H (per unit wavenumber).
+pub fn mhat(kappa: f64, r1: f64, r2: f64) -> f64 {
+    let (rs, rl) = if r1 <= r2 { (r1, r2) } else { (r2, r1) };
+    2.0 * PI * MU0 * rs * rl * i1_k1(kappa * rs, kappa * rl)
+}
+
+/// Product-integration weights w_i = integral_0^kmax |s(kappa)|^2 phi_i(kappa) dkappa of the
+/// stack factor against the hat functions of the node grid. Sub-panels of four Gauss
+/// points, each at most a quarter period of the fastest oscillation of |s|^2, so the
+/// oscillation is integrated to near machine precision.
+fn stack_weights(design: &Design, kappas: &[f64]) -> Vec<f64> {
+    let stack = &design.magnets;
+    let offsets: Vec<(f64, f64)> = stack.magnets().collect();
+    let lm = stack.magnet_length_m;
+    let span = stack.total_length_m();
+    let quarter = 0.25 * 2.0 * PI / span;
+    let s2 = |k: f64| {
+        let shape = if k == 0.0 {
+            lm
+        } else {
+            2.0 * (0.5 * k * lm).sin() / k
+        };
+        let (mut re, mut im) = (0.0, 0.0);
+        for &(o, s) in &offsets {
+            let (sn, cs) = (k * o).sin_cos();
+            re += s * cs;
+            im -= s * sn;
+        }
+        shape * shape * (re * re + im * im)
+    };
+    const G: [(f64, f64); 4] = [
+        (-0.861_136_311_594_052_6, 0.347_854_845_137_453_9),
+        (-0.339_981_043_584_856_3, 0.652_145_154_862_546_1),
+        (0.339_981_043_584_856_3, 0.652_145_154_862_546_1),
+        (0.861_136_311_594_052_6, 0.347_854_845_137_453_9),
+    ];
+    let mut w = vec![0.0; kappas.len()];
+    for i in 0..kappas.len().saturating_sub(1) {
+        let (k0, k1) = (kappas[i], kappas[i + 1]);
+        let len = k1 - k0;
+        let panels = (len / quarter).ceil().max(1.0) as usize;
+        let h = len / panels as f64;
+        for p in 0..panels {
+            let mid = k0 + (p as f64 + 0.5) * h;
+            for &(x, gw) in &G {
+                let k = mid + 0.5 * h * x;
+                let f = s2(k) * 0.5 * h * gw;
+                let t = (k - k0) / len;
+                w[i] += f * (1.0 - t);
+                w[i + 1] += f * t;
+            }
+        }
+    }
+    w
+}
+
+/// Gauss-Legendre nodes and weights on [-1, 1] by Newton iteration on P_n (Golub-Welsch
+/// alternative not needed at these orders; Abramowitz & Stegun 25.4.29).
+pub fn gauss_legendre(n: usize) -> (Vec<f64>, Vec<f64>) {
+    let mut x = vec![0.0; n];
+    let mut w = vec![0.0; n];
+    for i in 0..n {
+        let mut z = (PI * (i as f64 + 0.75) / (n as f64 + 0.5)).cos();
+        let mut dp = 1.0;
+        for _ in 0..100 {
+            let (mut p0, mut p1) = (1.0, z);
+            for k in 2..=n {
+                let kf = k as f64;
+                let p2 = ((2.0 * kf - 1.0) * z * p1 - (kf - 1.0) * p0) / kf;
+                p0 = p1;
+                p1 = p2;
+            }
+            let (p, pm1) = if n == 1 { (z, 1.0) } else { (p1, p0) };
+            dp = n as f64 * (z * p - pm1) / (z * z - 1.0);
+            let dz = p / dp;
+            z -= dz;
+            if dz.abs() < 1e-16 {
+                break;
+            }
+        }
+        x[n - 1 - i] = z;
+        w[n - 1 - i] = 2.0 / ((1.0 - z * z) * dp * dp);
+    }
+    (x, w)
+}
+
+/// Default speeds: 40 log-spaced points from well below the terminal (or critical) speed to
+/// ten times the critical speed.
+fn default_speeds(terminal: Option<f64>, critical: f64) -> Vec<f64> {
+    let low = terminal
+        .filter(|t| *t > 0.0)
+        .unwrap_or(critical)
+        .min(critical)
+        / 30.0;
+    let high = critical * 10.0;
+    (0..40)
+        .map(|i| low * (high / low).powf(i as f64 / 39.0))
+        .collect()
+}
+
+/// The steady force-speed curve of `design` in a long tube, with damping coefficient, peak
+/// force, critical speed, terminal speed for the design's load and a resolution check.
 pub fn force_curve(
-    _design: &Design,
-    _opts: &ForceCurveOptions,
-    _limits: &Limits,
+    design: &Design,
+    opts: &ForceCurveOptions,
+    limits: &Limits,
 ) -> Result<ForceCurve, ModelError> {
-    Err(ModelError::Numerical(
-        "spectral solver not yet built".into(),
-    ))
+    if let Some(speeds) = &opts.speeds_m_per_s {
+        Limits::check(
+            "speeds_m_per_s",
+            "number of speeds",
+            speeds.len(),
+            limits.max_speeds,
+        )?;
+        for (i, v) in speeds.iter().enumerate() {
+            if !v.is_finite() || *v < 0.0 || *v > 1.0e4 {
+                return Err(ModelError::field(
+                    format!("speeds_m_per_s[{i}]"),
+                    "must be a finite speed between 0 and 10000 m/s",
+                ));
+            }
+        }
+    }
+    if let Some(n) = opts.radial_layers {
+        if n == 0 || n > limits.max_radial_layers.min(MAX_LAYERS) {
+            return Err(ModelError::field(
+                "resolution.radial_layers",
+                format!(
+                    "must be between 1 and {}",
+                    limits.max_radial_layers.min(MAX_LAYERS)
+                ),
+            ));
+        }
+    }
+    let layers = opts.radial_layers.unwrap_or_else(|| default_layers(design));
+    let solver = SteadySolver::build(design, layers, FINE);
+    let check = SteadySolver::build(design, layers.div_ceil(2).max(2), COARSE);
+
+    let w = design.tube.wall_thickness_m();
+    let sigma = design.tube.conductivity_s_per_m;
+    let v_char = 2.0 / (MU0 * sigma * w);
+    let damping = solver.damping_n_s_per_m();
+    let (critical, peak) = solver.peak(v_char);
+    let drive = design.steady_drive_force_n();
+    let terminal = solver.speed_for_force(drive, critical);
+
+    // Resolution check: the same numbers from a coarser solver.
+    let (crit_c, peak_c) = check.peak(v_char);
+    let mut err = (check.damping_n_s_per_m() / damping - 1.0)
+        .abs()
+        .max((peak_c / peak - 1.0).abs());
+    if let (Some(t), Some(tc)) = (terminal, check.speed_for_force(drive, crit_c)) {
+        if t > 0.0 {
+            err = err.max((tc / t - 1.0).abs());
+        }
+    }
+
+    let speeds = match &opts.speeds_m_per_s {
+        Some(s) => s.clone(),
+        None => default_speeds(terminal, critical),
+    };
+    let points = speeds
+        .iter()
+        .map(|&v| ForcePoint {
+            speed_m_per_s: v,
+            force_n: solver.force_n(v),
+        })
+        .collect();
+
+    let mut cautions = vec![Caution::standing_safety()];
+    for c in &design.cautions {
+        push_unique(&mut cautions, c.clone());
+    }
+    if terminal.is_none() {
+        cautions.push(Caution::new(
+            CautionKind::Runaway,
+            format!(
+                "RUNAWAY: the driving force {drive:.4} N exceeds the peak braking force {peak:.4} N \
+                 (at {critical:.4} m/s). The brake cannot hold this load at any speed; above the \
+                 critical speed a faster load brakes less."
+            ),
+        ));
+    } else if drive <= 0.0 {
+        cautions.push(Caution::new(
+            CautionKind::ModelLimit,
+            "The load does not drive the stack (friction or an uphill incline exceeds the driving \
+             force): there is no steady motion, terminal speed 0.",
+        ));
+    } else if let Some(t) = terminal {
+        if t > 0.5 * critical {
+            cautions.push(Caution::new(
+                CautionKind::Runaway,
+                format!(
+                    "Terminal speed {t:.4} m/s is above half the critical speed {critical:.4} m/s: \
+                     little margin against runaway; a heavier or hotter case may not be held."
+                ),
+            ));
+        }
+    }
+    if err > 0.01 {
+        cautions.push(Caution::new(
+            CautionKind::Numerical,
+            format!(
+                "Resolution check: results changed by {:.2} % between two resolutions.",
+                err * 100.0
+            ),
+        ));
+    }
+    let rm_speed = terminal.filter(|t| *t > 0.0).unwrap_or(critical);
+    let mut model = ModelInfo::new(
+        "spectral",
+        Fidelity::Inductive,
+        Discretisation {
+            radial_layers: Some(solver.layers()),
+            wavenumbers: Some(solver.nodes()),
+            max_wavenumber_per_m: Some(solver.max_kappa),
+            ..Discretisation::default()
+        },
+    );
+    model.error_estimate_relative = Some(err);
+    Ok(ForceCurve {
+        points,
+        damping_n_s_per_m: damping,
+        peak_force_n: peak,
+        critical_speed_m_per_s: critical,
+        terminal_speed_m_per_s: terminal,
+        drive_force_n: drive,
+        magnetic_reynolds_number: MU0 * sigma * w * rm_speed,
+        characteristic_speed_m_per_s: v_char,
+        cautions,
+        model,
+    })
 }
