@@ -12,6 +12,7 @@
 pub mod bessel;
 pub mod caution;
 pub mod design;
+pub mod designpath;
 pub mod elliptic;
 pub mod error;
 pub mod flux;
@@ -19,11 +20,15 @@ pub mod forcecurve;
 pub mod inductance;
 pub mod limits;
 pub mod materials;
+pub mod metrics;
 pub mod report;
+pub mod sizing;
 pub mod spec;
 pub mod spectral;
 pub mod stroke;
+pub mod sweep;
 pub mod symeig;
+pub mod tolerance;
 pub mod transient;
 
 pub use caution::{Caution, CautionKind};

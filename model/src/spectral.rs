@@ -235,7 +235,7 @@ impl SteadySolver {
         let mut hi = reference_speed_m_per_s * 1e4;
         // Widen until the scan's maximum is interior (F rises as v, falls at least as v^-1/2).
         for _ in 0..6 {
-            let (vbest, idx, n) = self.scan_max(lo, hi, 49);
+            let (vbest, idx, n) = self.scan_max(lo, hi, 33);
             if idx == 0 {
                 lo /= 1e3;
             } else if idx == n - 1 {
@@ -245,7 +245,7 @@ impl SteadySolver {
                 return self.golden(vbest / ratio, vbest * ratio);
             }
         }
-        let (v, _, _) = self.scan_max(lo, hi, 49);
+        let (v, _, _) = self.scan_max(lo, hi, 33);
         (v, self.force_n(v))
     }
 
@@ -283,7 +283,7 @@ impl SteadySolver {
                 d = a + g * (b - a);
                 fd = self.force_n(d.exp());
             }
-            if (b - a).abs() < 1e-7 {
+            if (b - a).abs() < 1e-5 {
                 break;
             }
         }
@@ -309,19 +309,80 @@ impl SteadySolver {
         if self.force_n(hi0) < drive_n {
             return None;
         }
+        // Illinois (modified regula falsi) on g(v) = F(v) - drive: bracketed, superlinear.
         let mut hi = hi0;
+        let mut g_lo = self.force_n(lo) - drive_n;
+        let mut g_hi = self.force_n(hi) - drive_n;
+        let mut side = 0i8;
         for _ in 0..200 {
-            let mid = (lo * hi).sqrt();
-            if self.force_n(mid) >= drive_n {
+            let mut mid = (lo * g_hi - hi * g_lo) / (g_hi - g_lo);
+            if !(mid > lo && mid < hi) {
+                mid = 0.5 * (lo + hi);
+            }
+            let g = self.force_n(mid) - drive_n;
+            if g >= 0.0 {
                 hi = mid;
+                g_hi = g;
+                if side == 1 {
+                    g_lo *= 0.5;
+                }
+                side = 1;
             } else {
                 lo = mid;
+                g_lo = g;
+                if side == -1 {
+                    g_hi *= 0.5;
+                }
+                side = -1;
             }
-            if hi / lo - 1.0 < 1e-11 {
-                break;
+            if hi - lo <= 1e-12 * hi || g.abs() <= 1e-13 * drive_n {
+                return Some(mid);
             }
         }
         Some(0.5 * (lo + hi))
+    }
+}
+
+/// The scalar steady-state numbers of a design in a long tube.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SteadyMetrics {
+    /// Low-speed slope F/v, N s/m.
+    pub damping_n_s_per_m: f64,
+    /// Largest braking force, N.
+    pub peak_force_n: f64,
+    /// Speed of the peak, m/s.
+    pub critical_speed_m_per_s: f64,
+    /// Speed at which braking balances the steady driving force; None on runaway.
+    pub terminal_speed_m_per_s: Option<f64>,
+    /// Steady driving force of the load, N.
+    pub drive_force_n: f64,
+    /// mu0 sigma w v at the terminal speed (at the critical speed when there is none).
+    pub magnetic_reynolds_number: f64,
+    /// Thin-sheet characteristic speed 2 / (mu0 sigma w), m/s.
+    pub characteristic_speed_m_per_s: f64,
+}
+
+impl SteadySolver {
+    /// Damping, peak, critical and terminal speed for `design`'s load. The solver must have
+    /// been built for the same magnets and tube; only the load is read from `design`, so one
+    /// solver serves every load.
+    pub fn metrics(&self, design: &Design) -> SteadyMetrics {
+        let w = design.tube.wall_thickness_m();
+        let sigma = design.tube.conductivity_s_per_m;
+        let v_char = 2.0 / (MU0 * sigma * w);
+        let (critical, peak) = self.peak(v_char);
+        let drive = design.steady_drive_force_n();
+        let terminal = self.speed_for_force(drive, critical);
+        let rm_speed = terminal.filter(|t| *t > 0.0).unwrap_or(critical);
+        SteadyMetrics {
+            damping_n_s_per_m: self.damping_n_s_per_m(),
+            peak_force_n: peak,
+            critical_speed_m_per_s: critical,
+            terminal_speed_m_per_s: terminal,
+            drive_force_n: drive,
+            magnetic_reynolds_number: MU0 * sigma * w * rm_speed,
+            characteristic_speed_m_per_s: v_char,
+        }
     }
 }
 
@@ -462,21 +523,22 @@ pub fn force_curve(
     let layers = opts.radial_layers.unwrap_or_else(|| default_layers(design));
     let solver = SteadySolver::build(design, layers, FINE);
     let check = SteadySolver::build(design, layers.div_ceil(2).max(2), COARSE);
-
-    let w = design.tube.wall_thickness_m();
-    let sigma = design.tube.conductivity_s_per_m;
-    let v_char = 2.0 / (MU0 * sigma * w);
-    let damping = solver.damping_n_s_per_m();
-    let (critical, peak) = solver.peak(v_char);
-    let drive = design.steady_drive_force_n();
-    let terminal = solver.speed_for_force(drive, critical);
+    let metrics = solver.metrics(design);
+    let SteadyMetrics {
+        damping_n_s_per_m: damping,
+        peak_force_n: peak,
+        critical_speed_m_per_s: critical,
+        terminal_speed_m_per_s: terminal,
+        drive_force_n: drive,
+        ..
+    } = metrics;
 
     // Resolution check: the same numbers from a coarser solver.
-    let (crit_c, peak_c) = check.peak(v_char);
-    let mut err = (check.damping_n_s_per_m() / damping - 1.0)
+    let coarse = check.metrics(design);
+    let mut err = (coarse.damping_n_s_per_m / damping - 1.0)
         .abs()
-        .max((peak_c / peak - 1.0).abs());
-    if let (Some(t), Some(tc)) = (terminal, check.speed_for_force(drive, crit_c)) {
+        .max((coarse.peak_force_n / peak - 1.0).abs());
+    if let (Some(t), Some(tc)) = (terminal, coarse.terminal_speed_m_per_s) {
         if t > 0.0 {
             err = err.max((tc / t - 1.0).abs());
         }
@@ -533,7 +595,6 @@ pub fn force_curve(
             ),
         ));
     }
-    let rm_speed = terminal.filter(|t| *t > 0.0).unwrap_or(critical);
     let mut model = ModelInfo::new(
         "spectral",
         Fidelity::Inductive,
@@ -552,8 +613,8 @@ pub fn force_curve(
         critical_speed_m_per_s: critical,
         terminal_speed_m_per_s: terminal,
         drive_force_n: drive,
-        magnetic_reynolds_number: MU0 * sigma * w * rm_speed,
-        characteristic_speed_m_per_s: v_char,
+        magnetic_reynolds_number: metrics.magnetic_reynolds_number,
+        characteristic_speed_m_per_s: metrics.characteristic_speed_m_per_s,
         cautions,
         model,
     })

@@ -1,0 +1,159 @@
+//! Named scalar metrics of a design, for sweeps and sizing: every scalar of the steady force
+//! curve and of the stroke summary, by the names the HTTP contract uses.
+
+use crate::design::Design;
+use crate::error::ModelError;
+use crate::limits::Limits;
+use crate::spectral::{SteadyMetrics, SteadySolver};
+use crate::stroke::{StrokeOptions, StrokeSummary};
+use serde::{Deserialize, Serialize};
+
+/// A scalar result that sweeps and sizing can report.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, Serialize, Deserialize)]
+#[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
+pub enum Metric {
+    /// Steady speed at which braking balances the load, m/s (null on runaway).
+    #[serde(rename = "terminal_speed_m_per_s")]
+    TerminalSpeed,
+    /// Low-speed damping coefficient, N s/m.
+    #[serde(rename = "damping_n_s_per_m")]
+    Damping,
+    /// Peak braking force, N.
+    #[serde(rename = "peak_force_n")]
+    PeakForce,
+    /// Speed of the peak braking force, m/s.
+    #[serde(rename = "critical_speed_m_per_s")]
+    CriticalSpeed,
+    /// Magnetic Reynolds number at the terminal (or critical) speed.
+    #[serde(rename = "magnetic_reynolds_number")]
+    MagneticReynolds,
+    /// Steady driving force of the load, N.
+    #[serde(rename = "drive_force_n")]
+    DriveForce,
+    /// Moving mass, kg.
+    #[serde(rename = "moving_mass_kg")]
+    MovingMass,
+    /// Time for the stack centre to reach the far end of the tube, s (null if never).
+    #[serde(rename = "exit_time_s")]
+    ExitTime,
+    /// Speed at that moment, m/s.
+    #[serde(rename = "exit_speed_m_per_s")]
+    ExitSpeed,
+    /// Largest speed of the stroke, m/s.
+    #[serde(rename = "max_speed_m_per_s")]
+    MaxSpeed,
+    /// Largest deceleration of the stroke, m/s^2.
+    #[serde(rename = "max_deceleration_m_per_s2")]
+    MaxDeceleration,
+    /// Largest braking force of the stroke, N.
+    #[serde(rename = "max_braking_force_n")]
+    MaxBrakingForce,
+    /// Heat dissipated in the tube per stroke, J.
+    #[serde(rename = "heat_j")]
+    Heat,
+    /// Adiabatic temperature rise of the swept tube, K.
+    #[serde(rename = "tube_temperature_rise_k")]
+    TubeTemperatureRise,
+    /// Relative energy-ledger imbalance of the stroke.
+    #[serde(rename = "energy_balance_error")]
+    EnergyBalanceError,
+}
+
+impl Metric {
+    /// The metric's name in requests and responses.
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::TerminalSpeed => "terminal_speed_m_per_s",
+            Self::Damping => "damping_n_s_per_m",
+            Self::PeakForce => "peak_force_n",
+            Self::CriticalSpeed => "critical_speed_m_per_s",
+            Self::MagneticReynolds => "magnetic_reynolds_number",
+            Self::DriveForce => "drive_force_n",
+            Self::MovingMass => "moving_mass_kg",
+            Self::ExitTime => "exit_time_s",
+            Self::ExitSpeed => "exit_speed_m_per_s",
+            Self::MaxSpeed => "max_speed_m_per_s",
+            Self::MaxDeceleration => "max_deceleration_m_per_s2",
+            Self::MaxBrakingForce => "max_braking_force_n",
+            Self::Heat => "heat_j",
+            Self::TubeTemperatureRise => "tube_temperature_rise_k",
+            Self::EnergyBalanceError => "energy_balance_error",
+        }
+    }
+
+    /// Whether the metric needs a stroke simulation (otherwise the steady solver serves).
+    pub fn needs_stroke(self) -> bool {
+        matches!(
+            self,
+            Self::ExitTime
+                | Self::ExitSpeed
+                | Self::MaxSpeed
+                | Self::MaxDeceleration
+                | Self::MaxBrakingForce
+                | Self::Heat
+                | Self::TubeTemperatureRise
+                | Self::EnergyBalanceError
+        )
+    }
+
+    /// Whether the metric needs the steady solver.
+    pub fn needs_steady(self) -> bool {
+        matches!(
+            self,
+            Self::TerminalSpeed
+                | Self::Damping
+                | Self::PeakForce
+                | Self::CriticalSpeed
+                | Self::MagneticReynolds
+        )
+    }
+}
+
+/// The values of `metrics` for one design, in the order asked. A steady solver built for the
+/// same magnets and tube may be passed in to be reused.
+pub fn evaluate(
+    design: &Design,
+    metrics: &[Metric],
+    stroke: &StrokeOptions,
+    limits: &Limits,
+    solver: Option<&SteadySolver>,
+) -> Result<Vec<Option<f64>>, ModelError> {
+    let steady: Option<SteadyMetrics> = if metrics.iter().any(|m| m.needs_steady()) {
+        Some(match solver {
+            Some(s) => s.metrics(design),
+            None => SteadySolver::new(design, None)?.metrics(design),
+        })
+    } else {
+        None
+    };
+    let summary: Option<StrokeSummary> = if metrics.iter().any(|m| m.needs_stroke()) {
+        Some(crate::transient::simulate_stroke(design, stroke, limits)?.summary)
+    } else {
+        None
+    };
+    Ok(metrics
+        .iter()
+        .map(|m| {
+            let s = steady.as_ref();
+            let t = summary.as_ref();
+            match m {
+                Metric::TerminalSpeed => s.and_then(|s| s.terminal_speed_m_per_s),
+                Metric::Damping => s.map(|s| s.damping_n_s_per_m),
+                Metric::PeakForce => s.map(|s| s.peak_force_n),
+                Metric::CriticalSpeed => s.map(|s| s.critical_speed_m_per_s),
+                Metric::MagneticReynolds => s.map(|s| s.magnetic_reynolds_number),
+                Metric::DriveForce => Some(design.steady_drive_force_n()),
+                Metric::MovingMass => Some(design.moving_mass_kg()),
+                Metric::ExitTime => t.and_then(|t| t.exit_time_s),
+                Metric::ExitSpeed => t.and_then(|t| t.exit_speed_m_per_s),
+                Metric::MaxSpeed => t.map(|t| t.max_speed_m_per_s),
+                Metric::MaxDeceleration => t.map(|t| t.max_deceleration_m_per_s2),
+                Metric::MaxBrakingForce => t.map(|t| t.max_braking_force_n),
+                Metric::Heat => t.map(|t| t.heat_j),
+                Metric::TubeTemperatureRise => t.and_then(|t| t.tube_temperature_rise_k),
+                Metric::EnergyBalanceError => t.map(|t| t.energy_balance_error),
+            }
+            .filter(|x| x.is_finite())
+        })
+        .collect())
+}
