@@ -103,7 +103,8 @@ mod tests {
         // K(0) = E(0) = pi/2 (source: Abramowitz & Stegun 17.3.11, 17.3.12).
         assert!((complete_k(0.0) - PI / 2.0).abs() < 1e-15);
         assert!((complete_e(0.0) - PI / 2.0).abs() < 1e-15);
-        // E(1) = 1 (source: Abramowitz & Stegun 17.3.13).
+        // E(1) = 1: the defining integral with m = 1 (source: Abramowitz & Stegun 17.3.3, from
+        // memory; 17.3.13 is Legendre's relation, checked in tests/properties.rs).
         assert!((complete_e(1.0 - 1e-300) - 1.0).abs() < 1e-12);
     }
 }
