@@ -9,14 +9,17 @@
 //! ferromagnetic tubes, no iron pole pieces); magnets rigid and uniformly magnetised along
 //! the axis; conductivity uniform across the wall.
 
+pub mod banded;
 pub mod bessel;
 pub mod caution;
 pub mod design;
 pub mod designpath;
+pub mod dragprofile;
 pub mod elliptic;
 pub mod error;
 pub mod flux;
 pub mod forcecurve;
+pub mod heat;
 pub mod inductance;
 pub mod limits;
 pub mod materials;
