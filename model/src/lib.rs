@@ -24,6 +24,7 @@ pub mod inductance;
 pub mod limits;
 pub mod materials;
 pub mod metrics;
+pub mod quadrature;
 pub mod report;
 pub mod sizing;
 pub mod spec;

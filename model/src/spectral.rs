@@ -36,6 +36,7 @@ use crate::design::Design;
 use crate::error::ModelError;
 use crate::forcecurve::{ForceCurve, ForceCurveOptions, ForcePoint};
 use crate::limits::Limits;
+use crate::quadrature::gauss_legendre;
 use crate::report::{Discretisation, Fidelity, ModelInfo};
 use crate::symeig::jacobi;
 use std::f64::consts::PI;
@@ -440,36 +441,6 @@ fn stack_weights(design: &Design, kappas: &[f64]) -> Vec<f64> {
         }
     }
     w
-}
-
-/// Gauss-Legendre nodes and weights on [-1, 1] by Newton iteration on P_n (Golub-Welsch
-/// alternative not needed at these orders; Abramowitz & Stegun 25.4.29).
-pub fn gauss_legendre(n: usize) -> (Vec<f64>, Vec<f64>) {
-    let mut x = vec![0.0; n];
-    let mut w = vec![0.0; n];
-    for i in 0..n {
-        let mut z = (PI * (i as f64 + 0.75) / (n as f64 + 0.5)).cos();
-        let mut dp = 1.0;
-        for _ in 0..100 {
-            let (mut p0, mut p1) = (1.0, z);
-            for k in 2..=n {
-                let kf = k as f64;
-                let p2 = ((2.0 * kf - 1.0) * z * p1 - (kf - 1.0) * p0) / kf;
-                p0 = p1;
-                p1 = p2;
-            }
-            let (p, pm1) = if n == 1 { (z, 1.0) } else { (p1, p0) };
-            dp = n as f64 * (z * p - pm1) / (z * z - 1.0);
-            let dz = p / dp;
-            z -= dz;
-            if dz.abs() < 1e-16 {
-                break;
-            }
-        }
-        x[n - 1 - i] = z;
-        w[n - 1 - i] = 2.0 / ((1.0 - z * z) * dp * dp);
-    }
-    (x, w)
 }
 
 /// Default speeds: 40 log-spaced points from well below the terminal (or critical) speed to
