@@ -1,1 +1,120 @@
-fn main() {}
+//! `ringdrag`: starts the HTTP service.
+//!
+//! Sets up logging and metrics, parses the configuration (flags with environment fallbacks,
+//! see `ringdrag --help`), binds, prints `ringdrag listening on http://ADDR` once bound, serves,
+//! and on SIGTERM or Ctrl+C turns `/readyz` to 503, keeps serving for `--shutdown-delay-s`,
+//! stops accepting, finishes in-flight requests (up to the request timeout plus a margin) and
+//! exits.
+
+use anyhow::Context;
+use clap::Parser;
+use ringdrag_service::{AppState, Config, router, telemetry};
+use std::io::Write;
+use std::time::Duration;
+
+/// How often the metrics recorder's histograms are compacted.
+const METRICS_UPKEEP: Duration = Duration::from_secs(5);
+/// Time left to blocking computations after the server stopped.
+const BLOCKING_GRACE: Duration = Duration::from_secs(5);
+
+fn main() -> anyhow::Result<()> {
+    let config = Config::parse();
+    if config.print_openapi {
+        print!("{}", ringdrag_service::openapi_json());
+        return Ok(());
+    }
+    telemetry::init_tracing(config.log_format)?;
+    let runtime = tokio::runtime::Builder::new_multi_thread()
+        .enable_all()
+        .build()
+        .context("cannot start the async runtime")?;
+    let result = runtime.block_on(serve(config));
+    runtime.shutdown_timeout(BLOCKING_GRACE);
+    result
+}
+
+async fn serve(config: Config) -> anyhow::Result<()> {
+    let metrics = telemetry::install_metrics()?;
+    let upkeep = metrics.clone();
+    tokio::spawn(async move {
+        let mut tick = tokio::time::interval(METRICS_UPKEEP);
+        loop {
+            tick.tick().await;
+            upkeep.run_upkeep();
+        }
+    });
+    let state = AppState::new(&config, metrics);
+    let app = router(state.clone(), &config);
+    let listener = tokio::net::TcpListener::bind(config.listen)
+        .await
+        .with_context(|| format!("cannot listen on {}", config.listen))?;
+    let address = listener.local_addr()?;
+    {
+        let mut out = std::io::stdout().lock();
+        writeln!(out, "ringdrag listening on http://{address}")?;
+        out.flush()?;
+    }
+    tracing::info!(
+        %address,
+        job_slots = state.jobs.capacity(),
+        request_timeout_s = config.request_timeout_s,
+        max_body_bytes = config.max_body_bytes,
+        "serving"
+    );
+
+    let (stop_tx, mut stop_rx) = tokio::sync::watch::channel(false);
+    let draining = state.clone();
+    let delay = Duration::from_secs(config.shutdown_delay_s);
+    let shutdown = async move {
+        shutdown_signal().await;
+        draining.begin_shutdown();
+        tracing::info!(
+            delay_s = delay.as_secs(),
+            "shutdown requested; readiness is off"
+        );
+        tokio::time::sleep(delay).await;
+        tracing::info!("no longer accepting; finishing in-flight requests");
+        let _ = stop_tx.send(true);
+    };
+    let server = axum::serve(listener, app).with_graceful_shutdown(shutdown);
+    // Requests still open this long after the signal are abandoned.
+    let drain_deadline = config.request_timeout() + Duration::from_secs(5);
+    let deadline = async move {
+        let _ = stop_rx.wait_for(|stopped| *stopped).await;
+        tokio::time::sleep(drain_deadline).await;
+    };
+    tokio::select! {
+        served = server => served.context("server failed")?,
+        () = deadline => tracing::warn!("drain deadline passed; exiting with requests open"),
+    }
+    tracing::info!("stopped");
+    Ok(())
+}
+
+/// Completes on SIGTERM or SIGINT (Ctrl+C).
+async fn shutdown_signal() {
+    let interrupt = async {
+        if let Err(e) = tokio::signal::ctrl_c().await {
+            tracing::error!(error = %e, "cannot listen for Ctrl+C");
+            std::future::pending::<()>().await;
+        }
+    };
+    #[cfg(unix)]
+    let terminate = async {
+        match tokio::signal::unix::signal(tokio::signal::unix::SignalKind::terminate()) {
+            Ok(mut signal) => {
+                signal.recv().await;
+            }
+            Err(e) => {
+                tracing::error!(error = %e, "cannot listen for SIGTERM");
+                std::future::pending::<()>().await;
+            }
+        }
+    };
+    #[cfg(not(unix))]
+    let terminate = std::future::pending::<()>();
+    tokio::select! {
+        () = interrupt => {}
+        () = terminate => {}
+    }
+}

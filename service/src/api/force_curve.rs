@@ -1,0 +1,286 @@
+//! `POST /v1/force-curve`: the steady braking force against speed in a long tube.
+//!
+//! The request is validated here, once (the design by the model's `Design::from_spec`, the
+//! speeds and the resolution by this module, the job size against the service limits); the
+//! computation runs in the job runner; the result becomes the response record of the HTTP
+//! contract.
+
+use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
+use crate::extract::ApiJson;
+use crate::problem::{ApiError, FieldProblem, Problem};
+use crate::state::AppState;
+use axum::Json;
+use axum::extract::State;
+use ringdrag_model::{Design, DesignSpec, ForceCurve, ForceCurveOptions, Limits};
+use serde::{Deserialize, Serialize};
+use std::sync::Arc;
+use utoipa::ToSchema;
+use utoipa::openapi::schema::{ArrayBuilder, ObjectBuilder, Type};
+
+/// Largest speed accepted in a force curve, m/s (the model's own bound; far above any brake's
+/// working range).
+pub const MAX_SPEED_M_PER_S: f64 = 10_000.0;
+
+/// Most field problems listed for one array, so that a bad long array gives a short answer.
+const MAX_LISTED: usize = 10;
+
+/// Request of `POST /v1/force-curve`.
+#[derive(Debug, Clone, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct ForceCurveRequest {
+    /// The design: magnets, tube and load.
+    pub design: DesignSpec,
+    /// Speeds to evaluate, m/s, each from 0 to 10000; at most the service's
+    /// `RINGDRAG_MAX_SPEEDS` of them (default 2000). Omit for 40 log-spaced speeds over a
+    /// range that brackets the peak.
+    #[serde(default)]
+    #[schema(schema_with = speeds_schema)]
+    pub speeds_m_per_s: Option<Vec<f64>>,
+    /// Resolution override; omit to let the model choose.
+    #[serde(default)]
+    pub resolution: ForceCurveResolution,
+}
+
+/// Resolution override of a force curve.
+#[derive(Debug, Clone, Default, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct ForceCurveResolution {
+    /// Radial layers across the tube wall (default chosen from the wall and the skin depth).
+    #[serde(default)]
+    #[schema(minimum = 1, maximum = 32)]
+    pub radial_layers: Option<u32>,
+}
+
+fn speeds_schema() -> ArrayBuilder {
+    ArrayBuilder::new()
+        .items(
+            ObjectBuilder::new()
+                .schema_type(Type::Number)
+                .format(Some(utoipa::openapi::SchemaFormat::KnownFormat(
+                    utoipa::openapi::KnownFormat::Double,
+                )))
+                .minimum(Some(0.0))
+                .maximum(Some(MAX_SPEED_M_PER_S)),
+        )
+        .min_items(Some(1))
+        .max_items(Some(Limits::default().max_speeds))
+        .description(Some(
+            "Speeds to evaluate, m/s, each from 0 to 10000; at most the \
+             service's `RINGDRAG_MAX_SPEEDS` of them (default 2000). Omit for 40 log-spaced \
+             speeds over a range that brackets the peak.",
+        ))
+}
+
+/// Checks the radial layer override against the model's cap.
+pub(crate) fn check_radial_layers(
+    path: &str,
+    layers: Option<u32>,
+    limits: &Limits,
+    errors: &mut Vec<FieldProblem>,
+) -> Option<usize> {
+    let layers = layers?;
+    if layers == 0 || layers as usize > limits.max_radial_layers {
+        errors.push(FieldProblem {
+            path: path.to_string(),
+            message: format!("must be between 1 and {}", limits.max_radial_layers),
+        });
+        None
+    } else {
+        Some(layers as usize)
+    }
+}
+
+/// Adds the model's validation of the design to `errors`; the design when it is valid.
+pub(crate) fn check_design(spec: &DesignSpec, errors: &mut Vec<FieldProblem>) -> Option<Design> {
+    match Design::from_spec(spec) {
+        Ok(design) => Some(design),
+        Err(err) => {
+            match ApiError::from(err) {
+                ApiError::Invalid(found) | ApiError::JobTooLarge(found) => errors.extend(found),
+                other => errors.push(FieldProblem {
+                    path: "design".to_string(),
+                    message: other.to_string(),
+                }),
+            }
+            None
+        }
+    }
+}
+
+impl ForceCurveRequest {
+    /// The validated design and options, or every problem found.
+    pub fn validate(self, limits: &Limits) -> Result<(Design, ForceCurveOptions), ApiError> {
+        let mut errors = Vec::new();
+        let design = check_design(&self.design, &mut errors);
+        if let Some(speeds) = &self.speeds_m_per_s {
+            if speeds.is_empty() {
+                errors.push(FieldProblem {
+                    path: "speeds_m_per_s".into(),
+                    message: "give at least one speed, or omit the field for the default set"
+                        .into(),
+                });
+            }
+            let bad = speeds
+                .iter()
+                .enumerate()
+                .filter(|(_, v)| !(v.is_finite() && (0.0..=MAX_SPEED_M_PER_S).contains(*v)))
+                .take(MAX_LISTED);
+            for (i, _) in bad {
+                errors.push(FieldProblem {
+                    path: format!("speeds_m_per_s[{i}]"),
+                    message: format!("must be a speed from 0 to {MAX_SPEED_M_PER_S} m/s"),
+                });
+            }
+        }
+        let radial_layers = check_radial_layers(
+            "resolution.radial_layers",
+            self.resolution.radial_layers,
+            limits,
+            &mut errors,
+        );
+        if !errors.is_empty() {
+            return Err(ApiError::Invalid(errors));
+        }
+        if let Some(speeds) = &self.speeds_m_per_s
+            && speeds.len() > limits.max_speeds
+        {
+            return Err(ApiError::JobTooLarge(vec![FieldProblem {
+                path: "speeds_m_per_s".into(),
+                message: format!(
+                    "{} speeds requested, above the service limit of {}",
+                    speeds.len(),
+                    limits.max_speeds
+                ),
+            }]));
+        }
+        let design = design.ok_or_else(|| ApiError::Internal("design lost".into()))?;
+        Ok((
+            design,
+            ForceCurveOptions {
+                speeds_m_per_s: self.speeds_m_per_s,
+                radial_layers,
+            },
+        ))
+    }
+}
+
+/// One point of the force-speed curve.
+#[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
+pub struct ForcePointDto {
+    /// Speed, m/s.
+    pub speed_m_per_s: f64,
+    /// Braking force, N (positive opposes motion).
+    pub force_n: f64,
+}
+
+/// Response of `POST /v1/force-curve`.
+#[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
+pub struct ForceCurveResponse {
+    /// Braking force at each speed, in the order requested (or ascending for the default set).
+    pub points: Vec<ForcePointDto>,
+    /// Low-speed damping coefficient, the slope F/v of the curve at small speed, N s/m.
+    pub damping_n_s_per_m: f64,
+    /// Largest braking force over all speeds, N.
+    pub peak_force_n: f64,
+    /// Speed of the peak force, m/s; above it a faster load brakes less.
+    pub critical_speed_m_per_s: f64,
+    /// Speed at which braking balances the steady driving force of `load`, m/s; null when the
+    /// driving force exceeds `peak_force_n` (the brake cannot hold the load; a caution says so)
+    /// or when there is no driving force.
+    pub terminal_speed_m_per_s: Option<f64>,
+    /// Steady driving force of the load along travel (gravity plus applied force, less
+    /// friction), N.
+    pub drive_force_n: f64,
+    /// Magnetic Reynolds number mu0 sigma v w (w the wall thickness) at the terminal speed, or
+    /// at the critical speed when there is no terminal speed.
+    pub magnetic_reynolds_number: f64,
+    /// Thin-sheet characteristic speed 2 / (mu0 sigma w), m/s (Reitz, J. Appl. Phys. 41, 2067,
+    /// 1970).
+    pub characteristic_speed_m_per_s: f64,
+    /// Cautions as text, the standing safety caution first.
+    pub cautions: Vec<String>,
+    /// The same cautions with their kinds.
+    pub caution_details: Vec<CautionDetail>,
+    /// Method, fidelity and discretisation used.
+    pub model: ModelBlock,
+}
+
+impl ForceCurveResponse {
+    /// The response record of a model result; refuses non-finite numbers.
+    pub fn from_model(curve: ForceCurve) -> Result<Self, ApiError> {
+        let mut check = FiniteCheck::default();
+        let points = curve
+            .points
+            .iter()
+            .enumerate()
+            .map(|(i, p)| ForcePointDto {
+                speed_m_per_s: check.num(&format!("points[{i}].speed_m_per_s"), p.speed_m_per_s),
+                force_n: check.num(&format!("points[{i}].force_n"), p.force_n),
+            })
+            .collect();
+        let (cautions, caution_details) = cautions(curve.cautions);
+        let response = Self {
+            points,
+            damping_n_s_per_m: check.num("damping_n_s_per_m", curve.damping_n_s_per_m),
+            peak_force_n: check.num("peak_force_n", curve.peak_force_n),
+            critical_speed_m_per_s: check
+                .num("critical_speed_m_per_s", curve.critical_speed_m_per_s),
+            terminal_speed_m_per_s: check
+                .opt("terminal_speed_m_per_s", curve.terminal_speed_m_per_s),
+            drive_force_n: check.num("drive_force_n", curve.drive_force_n),
+            magnetic_reynolds_number: check
+                .num("magnetic_reynolds_number", curve.magnetic_reynolds_number),
+            characteristic_speed_m_per_s: check.num(
+                "characteristic_speed_m_per_s",
+                curve.characteristic_speed_m_per_s,
+            ),
+            cautions,
+            caution_details,
+            model: ModelBlock::from_model(curve.model, &mut check),
+        };
+        check.finish(response)
+    }
+}
+
+/// Computes the steady force-speed curve of a design in a long tube.
+#[utoipa::path(
+    post,
+    path = "/v1/force-curve",
+    tag = "jobs",
+    operation_id = "compute_force_curve",
+    request_body(
+        content = ForceCurveRequest,
+        content_type = "application/json",
+        description = "The design and, optionally, the speeds and the resolution."
+    ),
+    responses(
+        (status = 200, description = "The force-speed curve and the numbers derived from it.",
+            body = ForceCurveResponse),
+        (status = 400, description = "The body is not well-formed JSON.", body = Problem,
+            content_type = "application/problem+json"),
+        (status = 413, description = "The body exceeds the service's size limit.", body = Problem,
+            content_type = "application/problem+json"),
+        (status = 415, description = "The body is not declared as application/json.",
+            body = Problem, content_type = "application/problem+json"),
+        (status = 422, description = "Invalid fields, a job above the service limits, or a \
+            design the model cannot compute; `errors` names each field.", body = Problem,
+            content_type = "application/problem+json"),
+        (status = 503, description = "Overloaded or timed out; retry after `Retry-After` \
+            seconds.", body = Problem, content_type = "application/problem+json",
+            headers(("Retry-After" = u64, description = "Seconds to wait before retrying."))),
+    )
+)]
+pub async fn compute_force_curve(
+    State(state): State<AppState>,
+    ApiJson(request): ApiJson<ForceCurveRequest>,
+) -> Result<Json<ForceCurveResponse>, ApiError> {
+    let (design, options) = request.validate(&state.limits)?;
+    let limits = Arc::clone(&state.limits);
+    let curve = state
+        .jobs
+        .run("force_curve", move || {
+            ringdrag_model::force_curve(&design, &options, &limits).map_err(ApiError::from)
+        })
+        .await?;
+    ForceCurveResponse::from_model(curve).map(Json)
+}

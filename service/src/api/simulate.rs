@@ -1,0 +1,356 @@
+//! `POST /v1/simulate`: one stroke of the magnet stack through the finite tube, in time.
+//!
+//! The request is validated here, once (the design by the model, the start state, time,
+//! samples and resolution by this module, the simulated time and samples against the service
+//! limits); the model checks the sizes that only it can know (rings, steps) against the same
+//! limits and names the field that drives them.
+
+use crate::api::force_curve::{check_design, check_radial_layers};
+use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
+use crate::extract::ApiJson;
+use crate::problem::{ApiError, FieldProblem, Problem};
+use crate::state::AppState;
+use axum::Json;
+use axum::extract::State;
+use ringdrag_model::report::Fidelity;
+use ringdrag_model::{Design, DesignSpec, Limits, Stroke, StrokeEnd, StrokeOptions};
+use serde::{Deserialize, Serialize};
+use std::sync::Arc;
+use utoipa::ToSchema;
+
+/// Bound on the start position magnitude, m (five tube lengths of the longest tube).
+pub const MAX_START_POSITION_M: f64 = 100.0;
+/// Largest start speed, m/s.
+pub const MAX_START_SPEED_M_PER_S: f64 = 1000.0;
+/// Largest axial ring width override, m.
+pub const MAX_RING_WIDTH_M: f64 = 0.1;
+
+/// Where and how fast the stack starts.
+#[derive(Debug, Clone, Default, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct StartState {
+    /// Position of the stack centre, m: the tube's entry end is at 0, its far end at
+    /// `tube.length_m`; negative is before the entry (above it in a vertical drop).
+    #[serde(default)]
+    #[schema(minimum = -100.0, maximum = 100.0)]
+    pub position_m: f64,
+    /// Speed along the direction of travel, m/s.
+    #[serde(default)]
+    #[schema(minimum = 0.0, maximum = 1000.0)]
+    pub speed_m_per_s: f64,
+}
+
+/// Resolution override of a stroke simulation.
+#[derive(Debug, Clone, Default, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct StrokeResolution {
+    /// Axial ring width, m (default chosen from the bore and the magnet length).
+    #[serde(default)]
+    #[schema(exclusive_minimum = 0.0, maximum = 0.1)]
+    pub ring_width_m: Option<f64>,
+    /// Radial layers across the tube wall (default chosen from the wall and the skin depth).
+    #[serde(default)]
+    #[schema(minimum = 1, maximum = 32)]
+    pub radial_layers: Option<u32>,
+}
+
+fn sixty() -> f64 {
+    60.0
+}
+
+fn two_hundred() -> u32 {
+    200
+}
+
+/// Request of `POST /v1/simulate`.
+#[derive(Debug, Clone, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct SimulateRequest {
+    /// The design: magnets, tube and load.
+    pub design: DesignSpec,
+    /// Start state; default: the stack centre at the entry end, at rest.
+    #[serde(default)]
+    pub start: StartState,
+    /// Longest simulated time, s; at most the service's `RINGDRAG_MAX_SIM_TIME_S` (default
+    /// 3600).
+    #[serde(default = "sixty")]
+    #[schema(exclusive_minimum = 0.0, maximum = 3600.0, default = 60.0)]
+    pub max_time_s: f64,
+    /// Fidelity: `auto` chooses from the magnetic Reynolds number and the response says which
+    /// ran; `quasi_static` neglects inductance; `inductive` runs the full ring circuit.
+    #[serde(default)]
+    pub fidelity: Fidelity,
+    /// Points in the returned series (first and last included); at most the service's
+    /// `RINGDRAG_MAX_SAMPLES` (default 20000).
+    #[serde(default = "two_hundred")]
+    #[schema(minimum = 2, maximum = 20000, default = 200)]
+    pub samples: u32,
+    /// Resolution override; omit to let the model choose.
+    #[serde(default)]
+    pub resolution: StrokeResolution,
+}
+
+fn within(
+    errors: &mut Vec<FieldProblem>,
+    path: &str,
+    value: f64,
+    ok: bool,
+    bounds: impl FnOnce() -> String,
+) -> f64 {
+    if !(value.is_finite() && ok) {
+        errors.push(FieldProblem {
+            path: path.to_string(),
+            message: bounds(),
+        });
+    }
+    value
+}
+
+impl SimulateRequest {
+    /// The validated design and options, or every problem found.
+    pub fn validate(self, limits: &Limits) -> Result<(Design, StrokeOptions), ApiError> {
+        let mut errors = Vec::new();
+        let design = check_design(&self.design, &mut errors);
+        let p = self.start.position_m;
+        within(
+            &mut errors,
+            "start.position_m",
+            p,
+            p.abs() <= MAX_START_POSITION_M,
+            || format!("must be between -{MAX_START_POSITION_M} and {MAX_START_POSITION_M} m"),
+        );
+        let v = self.start.speed_m_per_s;
+        within(
+            &mut errors,
+            "start.speed_m_per_s",
+            v,
+            (0.0..=MAX_START_SPEED_M_PER_S).contains(&v),
+            || format!("must be between 0 and {MAX_START_SPEED_M_PER_S} m/s"),
+        );
+        let t = self.max_time_s;
+        within(&mut errors, "max_time_s", t, t > 0.0, || {
+            "must be greater than 0 s".to_string()
+        });
+        if self.samples < 2 {
+            errors.push(FieldProblem {
+                path: "samples".into(),
+                message: "must be at least 2 (the first and the last point)".into(),
+            });
+        }
+        let resolution = self.resolution;
+        if let Some(w) = resolution.ring_width_m {
+            within(
+                &mut errors,
+                "resolution.ring_width_m",
+                w,
+                w > 0.0 && w <= MAX_RING_WIDTH_M,
+                || format!("must be greater than 0 and at most {MAX_RING_WIDTH_M} m"),
+            );
+        }
+        let radial_layers = check_radial_layers(
+            "resolution.radial_layers",
+            resolution.radial_layers,
+            limits,
+            &mut errors,
+        );
+        if !errors.is_empty() {
+            return Err(ApiError::Invalid(errors));
+        }
+        let mut too_large = Vec::new();
+        if t > limits.max_time_s {
+            too_large.push(FieldProblem {
+                path: "max_time_s".into(),
+                message: format!(
+                    "{t} s of simulated time requested, above the service limit of {} s",
+                    limits.max_time_s
+                ),
+            });
+        }
+        if self.samples as usize > limits.max_samples {
+            too_large.push(FieldProblem {
+                path: "samples".into(),
+                message: format!(
+                    "{} samples requested, above the service limit of {}",
+                    self.samples, limits.max_samples
+                ),
+            });
+        }
+        if !too_large.is_empty() {
+            return Err(ApiError::JobTooLarge(too_large));
+        }
+        let design = design.ok_or_else(|| ApiError::Internal("design lost".into()))?;
+        Ok((
+            design,
+            StrokeOptions {
+                start_position_m: p,
+                start_speed_m_per_s: v,
+                max_time_s: t,
+                fidelity: self.fidelity,
+                samples: self.samples as usize,
+                ring_width_m: resolution.ring_width_m,
+                radial_layers,
+            },
+        ))
+    }
+}
+
+/// Scalar results of a stroke.
+#[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
+pub struct StrokeSummaryDto {
+    /// Time at which the stack centre reaches the far end (`tube.length_m`), s; null if it
+    /// never does.
+    pub exit_time_s: Option<f64>,
+    /// Speed at that moment, m/s; null if the stack never gets there.
+    pub exit_speed_m_per_s: Option<f64>,
+    /// Largest speed, m/s.
+    pub max_speed_m_per_s: f64,
+    /// Largest deceleration (braking and friction beyond the driving force), m/s^2.
+    pub max_deceleration_m_per_s2: f64,
+    /// Largest braking force, N.
+    pub max_braking_force_n: f64,
+    /// Energy dissipated in the tube, J.
+    pub heat_j: f64,
+    /// Adiabatic temperature rise of the swept tube, K; null when the tube's density or
+    /// specific heat is unknown.
+    pub tube_temperature_rise_k: Option<f64>,
+    /// Relative imbalance of the energy ledger (work in against kinetic energy, heat, stored
+    /// magnetic energy and friction work); a measure of the time integration's error.
+    pub energy_balance_error: f64,
+    /// Why the run ended.
+    pub end_reason: StrokeEnd,
+    /// Simulated time at the end, s.
+    pub end_time_s: f64,
+    /// Position of the stack centre at the end, m.
+    pub end_position_m: f64,
+    /// Speed at the end, m/s.
+    pub end_speed_m_per_s: f64,
+}
+
+/// Time series of a stroke: equal-length arrays, first and last points included.
+#[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
+pub struct StrokeSeriesDto {
+    /// Time, s.
+    pub time_s: Vec<f64>,
+    /// Position of the stack centre, m.
+    pub position_m: Vec<f64>,
+    /// Speed along travel, m/s.
+    pub speed_m_per_s: Vec<f64>,
+    /// Braking force, N (positive opposes motion).
+    pub force_n: Vec<f64>,
+    /// Power dissipated in the tube, W.
+    pub power_w: Vec<f64>,
+}
+
+/// Response of `POST /v1/simulate`.
+#[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
+pub struct SimulateResponse {
+    /// Scalar results.
+    pub summary: StrokeSummaryDto,
+    /// Time series.
+    pub series: StrokeSeriesDto,
+    /// Cautions as text, the standing safety caution first.
+    pub cautions: Vec<String>,
+    /// The same cautions with their kinds.
+    pub caution_details: Vec<CautionDetail>,
+    /// Method, fidelity and discretisation used.
+    pub model: ModelBlock,
+}
+
+impl SimulateResponse {
+    /// The response record of a model result; refuses non-finite numbers.
+    pub fn from_model(stroke: Stroke) -> Result<Self, ApiError> {
+        let mut c = FiniteCheck::default();
+        let s = stroke.summary;
+        let summary = StrokeSummaryDto {
+            exit_time_s: c.opt("summary.exit_time_s", s.exit_time_s),
+            exit_speed_m_per_s: c.opt("summary.exit_speed_m_per_s", s.exit_speed_m_per_s),
+            max_speed_m_per_s: c.num("summary.max_speed_m_per_s", s.max_speed_m_per_s),
+            max_deceleration_m_per_s2: c.num(
+                "summary.max_deceleration_m_per_s2",
+                s.max_deceleration_m_per_s2,
+            ),
+            max_braking_force_n: c.num("summary.max_braking_force_n", s.max_braking_force_n),
+            heat_j: c.num("summary.heat_j", s.heat_j),
+            tube_temperature_rise_k: c
+                .opt("summary.tube_temperature_rise_k", s.tube_temperature_rise_k),
+            energy_balance_error: c.num("summary.energy_balance_error", s.energy_balance_error),
+            end_reason: s.end_reason,
+            end_time_s: c.num("summary.end_time_s", s.end_time_s),
+            end_position_m: c.num("summary.end_position_m", s.end_position_m),
+            end_speed_m_per_s: c.num("summary.end_speed_m_per_s", s.end_speed_m_per_s),
+        };
+        let r = stroke.series;
+        let series = StrokeSeriesDto {
+            time_s: c.all("series.time_s", r.time_s),
+            position_m: c.all("series.position_m", r.position_m),
+            speed_m_per_s: c.all("series.speed_m_per_s", r.speed_m_per_s),
+            force_n: c.all("series.force_n", r.force_n),
+            power_w: c.all("series.power_w", r.power_w),
+        };
+        let n = series.time_s.len();
+        let lengths = [
+            series.position_m.len(),
+            series.speed_m_per_s.len(),
+            series.force_n.len(),
+            series.power_w.len(),
+        ];
+        if lengths.iter().any(|&l| l != n) {
+            return Err(ApiError::Internal(format!(
+                "stroke series of unequal lengths: {n} and {lengths:?}"
+            )));
+        }
+        let (cautions, caution_details) = cautions(stroke.cautions);
+        let response = Self {
+            summary,
+            series,
+            cautions,
+            caution_details,
+            model: ModelBlock::from_model(stroke.model, &mut c),
+        };
+        c.finish(response)
+    }
+}
+
+/// Simulates one stroke of the stack through the finite tube, entry and exit included.
+#[utoipa::path(
+    post,
+    path = "/v1/simulate",
+    tag = "jobs",
+    operation_id = "simulate_stroke",
+    request_body(
+        content = SimulateRequest,
+        content_type = "application/json",
+        description = "The design, the start state, the time limit, the fidelity, the number \
+            of samples and, optionally, the resolution."
+    ),
+    responses(
+        (status = 200, description = "The stroke: summary, time series, cautions and model.",
+            body = SimulateResponse),
+        (status = 400, description = "The body is not well-formed JSON.", body = Problem,
+            content_type = "application/problem+json"),
+        (status = 413, description = "The body exceeds the service's size limit.", body = Problem,
+            content_type = "application/problem+json"),
+        (status = 415, description = "The body is not declared as application/json.",
+            body = Problem, content_type = "application/problem+json"),
+        (status = 422, description = "Invalid fields, a job above the service limits, or a \
+            design the model cannot compute; `errors` names each field.", body = Problem,
+            content_type = "application/problem+json"),
+        (status = 503, description = "Overloaded or timed out; retry after `Retry-After` \
+            seconds.", body = Problem, content_type = "application/problem+json",
+            headers(("Retry-After" = u64, description = "Seconds to wait before retrying."))),
+    )
+)]
+pub async fn simulate_stroke(
+    State(state): State<AppState>,
+    ApiJson(request): ApiJson<SimulateRequest>,
+) -> Result<Json<SimulateResponse>, ApiError> {
+    let (design, options) = request.validate(&state.limits)?;
+    let limits = Arc::clone(&state.limits);
+    let stroke = state
+        .jobs
+        .run("simulate", move || {
+            ringdrag_model::simulate_stroke(&design, &options, &limits).map_err(ApiError::from)
+        })
+        .await?;
+    SimulateResponse::from_model(stroke).map(Json)
+}

@@ -1,0 +1,193 @@
+//! Service configuration: every setting is a command-line flag with an environment-variable
+//! fallback (`--listen` or `RINGDRAG_LISTEN`), parsed once at start-up.
+//!
+//! The job caps map onto [`ringdrag_model::Limits`]; their defaults are the model's defaults,
+//! so an unconfigured service and the OpenAPI document (which states those defaults) agree.
+
+use clap::{Parser, ValueEnum};
+use ringdrag_model::Limits;
+use std::net::SocketAddr;
+use std::num::NonZeroUsize;
+use std::time::Duration;
+
+/// How log lines are written (to standard error).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum LogFormat {
+    /// Human-readable lines.
+    Text,
+    /// One JSON object per line, for log collectors.
+    Json,
+}
+
+/// Settings of the `ringdrag` service.
+#[derive(Debug, Clone, Parser)]
+#[command(
+    name = "ringdrag",
+    version,
+    about = "HTTP JSON service for eddy-current braking of magnet stacks in conducting tubes"
+)]
+pub struct Config {
+    /// Address to listen on; port 0 picks a free port (the chosen address is printed).
+    #[arg(long, env = "RINGDRAG_LISTEN", default_value = "127.0.0.1:8080")]
+    pub listen: SocketAddr,
+
+    /// Log line format.
+    #[arg(long, env = "RINGDRAG_LOG_FORMAT", value_enum, default_value_t = LogFormat::Text)]
+    pub log_format: LogFormat,
+
+    /// Computations running at once (default: the number of available cores).
+    #[arg(long, env = "RINGDRAG_MAX_CONCURRENT_JOBS")]
+    pub max_concurrent_jobs: Option<NonZeroUsize>,
+
+    /// How long a job waits for a free computation slot before the service answers 503, ms.
+    #[arg(long, env = "RINGDRAG_QUEUE_WAIT_MS", default_value_t = 2000)]
+    pub queue_wait_ms: u64,
+
+    /// Longest time one request may take, s.
+    #[arg(
+        long,
+        env = "RINGDRAG_REQUEST_TIMEOUT_S",
+        default_value_t = 60,
+        value_parser = clap::value_parser!(u64).range(1..=86_400)
+    )]
+    pub request_timeout_s: u64,
+
+    /// Largest accepted request body, bytes.
+    #[arg(long, env = "RINGDRAG_MAX_BODY_BYTES", default_value_t = 1 << 20)]
+    pub max_body_bytes: usize,
+
+    /// Most speeds in one force curve.
+    #[arg(long, env = "RINGDRAG_MAX_SPEEDS", default_value_t = Limits::default().max_speeds)]
+    pub max_speeds: usize,
+
+    /// Most ring cells (axial rings x radial layers) in one stroke simulation.
+    #[arg(long, env = "RINGDRAG_MAX_RING_CELLS", default_value_t = Limits::default().max_ring_cells)]
+    pub max_ring_cells: usize,
+
+    /// Most time steps in one stroke simulation.
+    #[arg(long, env = "RINGDRAG_MAX_STEPS", default_value_t = Limits::default().max_steps)]
+    pub max_steps: usize,
+
+    /// Longest simulated time of one stroke, s.
+    #[arg(
+        long,
+        env = "RINGDRAG_MAX_SIM_TIME_S",
+        default_value_t = Limits::default().max_time_s,
+        value_parser = positive_seconds
+    )]
+    pub max_sim_time_s: f64,
+
+    /// Most samples in a returned time series.
+    #[arg(long, env = "RINGDRAG_MAX_SAMPLES", default_value_t = Limits::default().max_samples)]
+    pub max_samples: usize,
+
+    /// Most points in one sweep.
+    #[arg(
+        long,
+        env = "RINGDRAG_MAX_SWEEP_POINTS",
+        default_value_t = Limits::default().max_sweep_points
+    )]
+    pub max_sweep_points: usize,
+
+    /// After SIGTERM or Ctrl+C, how long the service keeps serving with `/readyz` answering
+    /// 503 before it stops accepting connections, s (time for a load balancer to notice).
+    #[arg(long, env = "RINGDRAG_SHUTDOWN_DELAY_S", default_value_t = 0)]
+    pub shutdown_delay_s: u64,
+
+    /// Print the OpenAPI document to standard output and exit (regenerates
+    /// `openapi/openapi.json`).
+    #[arg(long)]
+    pub print_openapi: bool,
+}
+
+fn positive_seconds(text: &str) -> Result<f64, String> {
+    let value: f64 = text.parse().map_err(|e| format!("{e}"))?;
+    if value.is_finite() && value > 0.0 {
+        Ok(value)
+    } else {
+        Err("must be a finite number of seconds greater than zero".to_string())
+    }
+}
+
+impl Config {
+    /// The settings with every default, as if no flag and no variable were given.
+    pub fn defaults() -> Self {
+        Self {
+            listen: SocketAddr::from(([127, 0, 0, 1], 8080)),
+            log_format: LogFormat::Text,
+            max_concurrent_jobs: None,
+            queue_wait_ms: 2000,
+            request_timeout_s: 60,
+            max_body_bytes: 1 << 20,
+            max_speeds: Limits::default().max_speeds,
+            max_ring_cells: Limits::default().max_ring_cells,
+            max_steps: Limits::default().max_steps,
+            max_sim_time_s: Limits::default().max_time_s,
+            max_samples: Limits::default().max_samples,
+            max_sweep_points: Limits::default().max_sweep_points,
+            shutdown_delay_s: 0,
+            print_openapi: false,
+        }
+    }
+
+    /// The model's work limits from these settings.
+    pub fn limits(&self) -> Limits {
+        Limits {
+            max_speeds: self.max_speeds,
+            max_ring_cells: self.max_ring_cells,
+            max_steps: self.max_steps,
+            max_time_s: self.max_sim_time_s,
+            max_samples: self.max_samples,
+            max_sweep_points: self.max_sweep_points,
+            ..Limits::default()
+        }
+    }
+
+    /// Computations allowed at once: the setting, or the available cores.
+    pub fn job_slots(&self) -> usize {
+        self.max_concurrent_jobs.map_or_else(
+            || std::thread::available_parallelism().map_or(1, NonZeroUsize::get),
+            NonZeroUsize::get,
+        )
+    }
+
+    /// Longest wait for a computation slot.
+    pub fn queue_wait(&self) -> Duration {
+        Duration::from_millis(self.queue_wait_ms)
+    }
+
+    /// Longest time one request may take.
+    pub fn request_timeout(&self) -> Duration {
+        Duration::from_secs(self.request_timeout_s)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn defaults_match_the_parser() {
+        // The parser with no arguments must give `Config::defaults()` (environment permitting).
+        let parsed = Config::try_parse_from(["ringdrag"]);
+        if std::env::vars().any(|(k, _)| k.starts_with("RINGDRAG_")) {
+            return;
+        }
+        let Ok(parsed) = parsed else {
+            panic!("defaults must parse")
+        };
+        let d = Config::defaults();
+        assert_eq!(parsed.listen, d.listen);
+        assert_eq!(parsed.request_timeout_s, d.request_timeout_s);
+        assert_eq!(parsed.max_body_bytes, 1_048_576);
+        assert_eq!(parsed.limits(), Limits::default());
+    }
+
+    #[test]
+    fn rejects_non_positive_time_limit() {
+        assert!(Config::try_parse_from(["ringdrag", "--max-sim-time-s", "0"]).is_err());
+        assert!(Config::try_parse_from(["ringdrag", "--max-sim-time-s", "NaN"]).is_err());
+        assert!(Config::try_parse_from(["ringdrag", "--request-timeout-s", "0"]).is_err());
+        assert!(Config::try_parse_from(["ringdrag", "--max-sim-time-s", "30"]).is_ok());
+    }
+}

@@ -1,0 +1,210 @@
+//! Running computations: off the async runtime, a bounded number at a time, within a deadline.
+//!
+//! Every computing endpoint (today the force curve and the stroke; later sweeps and sizing)
+//! hands its work to [`JobRunner::run`]. The runner
+//! 1. waits at most the queue wait for one of a fixed number of slots (a semaphore), and answers
+//!    503 with `Retry-After` when none frees up: under load the service sheds work instead of
+//!    queueing without bound;
+//! 2. runs the work with `spawn_blocking`, so CPU-bound solvers never stall the async workers and
+//!    `/healthz` keeps answering;
+//! 3. answers 503 when the request deadline passes. A blocking computation cannot be cancelled,
+//!    so its slot stays taken until it really ends: abandoned work still counts against the
+//!    bound and cannot pile up.
+//!
+//! Metrics: `ringdrag_jobs_in_flight` and `ringdrag_jobs_waiting` (gauges),
+//! `ringdrag_jobs_total{job, outcome}` (counter) and `ringdrag_job_duration_seconds{job}`
+//! (histogram of computing time).
+
+use crate::problem::ApiError;
+use std::sync::Arc;
+use std::time::Duration;
+use tokio::sync::Semaphore;
+use tokio::time::Instant;
+
+/// Bounded, deadline-aware runner of blocking computations. Cheap to clone.
+#[derive(Debug, Clone)]
+pub struct JobRunner {
+    slots: Arc<Semaphore>,
+    capacity: usize,
+    queue_wait: Duration,
+    timeout: Duration,
+}
+
+/// Keeps a gauge raised while alive.
+struct GaugeGuard {
+    name: &'static str,
+    job: &'static str,
+}
+
+impl GaugeGuard {
+    fn raise(name: &'static str, job: &'static str) -> Self {
+        metrics::gauge!(name, "job" => job).increment(1.0);
+        Self { name, job }
+    }
+}
+
+impl Drop for GaugeGuard {
+    fn drop(&mut self) {
+        metrics::gauge!(self.name, "job" => self.job).decrement(1.0);
+    }
+}
+
+fn count(job: &'static str, outcome: &'static str) {
+    metrics::counter!("ringdrag_jobs_total", "job" => job, "outcome" => outcome).increment(1);
+}
+
+impl JobRunner {
+    /// A runner with `capacity` slots (at least one), waiting at most `queue_wait` for a slot,
+    /// and giving each request `timeout` in all (waiting included).
+    pub fn new(capacity: usize, queue_wait: Duration, timeout: Duration) -> Self {
+        let capacity = capacity.max(1);
+        Self {
+            slots: Arc::new(Semaphore::new(capacity)),
+            capacity,
+            queue_wait,
+            timeout,
+        }
+    }
+
+    /// Number of slots.
+    pub fn capacity(&self) -> usize {
+        self.capacity
+    }
+
+    /// Slots free right now.
+    pub fn available(&self) -> usize {
+        self.slots.available_permits()
+    }
+
+    /// Suggested wait before a retry, whole seconds (at least 1).
+    fn retry_after_s(&self) -> u64 {
+        self.queue_wait.as_secs_f64().ceil().max(1.0) as u64
+    }
+
+    /// Runs `work` on the blocking pool under the slot bound and the request deadline.
+    ///
+    /// `job` labels the metrics (`force_curve`, `simulate`...). The deadline counts from the
+    /// call, so time spent waiting for a slot is part of the request timeout.
+    pub async fn run<T, F>(&self, job: &'static str, work: F) -> Result<T, ApiError>
+    where
+        F: FnOnce() -> Result<T, ApiError> + Send + 'static,
+        T: Send + 'static,
+    {
+        let deadline = Instant::now() + self.timeout;
+        let permit = {
+            let _waiting = GaugeGuard::raise("ringdrag_jobs_waiting", job);
+            let wait = self.queue_wait.min(self.timeout);
+            match tokio::time::timeout(wait, Arc::clone(&self.slots).acquire_owned()).await {
+                Ok(Ok(permit)) => permit,
+                Ok(Err(_closed)) => {
+                    count(job, "internal");
+                    return Err(ApiError::Internal("job slots closed".to_string()));
+                }
+                Err(_elapsed) => {
+                    count(job, "overloaded");
+                    return Err(ApiError::Overloaded {
+                        retry_after_s: self.retry_after_s(),
+                    });
+                }
+            }
+        };
+        let span = tracing::Span::current();
+        let handle = tokio::task::spawn_blocking(move || {
+            let _entered = span.enter();
+            // The permit moves into the computation: its slot frees only when the work ends,
+            // even if the request gave up on it.
+            let _permit = permit;
+            let _in_flight = GaugeGuard::raise("ringdrag_jobs_in_flight", job);
+            let started = std::time::Instant::now();
+            let result = work();
+            let elapsed = started.elapsed();
+            metrics::histogram!("ringdrag_job_duration_seconds", "job" => job)
+                .record(elapsed.as_secs_f64());
+            tracing::debug!(job, elapsed_ms = elapsed.as_millis() as u64, "job finished");
+            result
+        });
+        match tokio::time::timeout_at(deadline, handle).await {
+            Ok(Ok(result)) => {
+                count(job, if result.is_ok() { "ok" } else { "rejected" });
+                result
+            }
+            Ok(Err(join_error)) => {
+                count(job, "internal");
+                let what = if join_error.is_panic() {
+                    "the computation panicked"
+                } else {
+                    "the computation was cancelled"
+                };
+                Err(ApiError::Internal(what.to_string()))
+            }
+            Err(_elapsed) => {
+                count(job, "timeout");
+                tracing::warn!(
+                    job,
+                    "job outlived the request timeout; its slot stays taken"
+                );
+                Err(ApiError::Timeout {
+                    timeout_s: self.timeout.as_secs(),
+                    retry_after_s: self.retry_after_s(),
+                })
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn sleeper(ms: u64) -> impl FnOnce() -> Result<u64, ApiError> + Send + 'static {
+        move || {
+            std::thread::sleep(Duration::from_millis(ms));
+            Ok(ms)
+        }
+    }
+
+    #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+    async fn runs_and_returns() {
+        let r = JobRunner::new(2, Duration::from_millis(100), Duration::from_secs(5));
+        assert_eq!(r.run("test", sleeper(1)).await, Ok(1));
+        assert_eq!(r.available(), 2);
+    }
+
+    #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+    async fn sheds_load_when_slots_stay_busy() {
+        let r = JobRunner::new(1, Duration::from_millis(50), Duration::from_secs(5));
+        let busy = {
+            let r = r.clone();
+            tokio::spawn(async move { r.run("test", sleeper(400)).await })
+        };
+        tokio::time::sleep(Duration::from_millis(100)).await;
+        let shed = r.run("test", sleeper(1)).await;
+        assert_eq!(shed, Err(ApiError::Overloaded { retry_after_s: 1 }));
+        assert_eq!(busy.await.ok(), Some(Ok(400)));
+    }
+
+    #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+    async fn timeout_keeps_the_slot_until_the_work_ends() {
+        let r = JobRunner::new(1, Duration::from_millis(50), Duration::from_millis(100));
+        let result = r.run("test", sleeper(600)).await;
+        assert!(
+            matches!(result, Err(ApiError::Timeout { .. })),
+            "{result:?}"
+        );
+        assert_eq!(r.available(), 0, "abandoned work must hold its slot");
+        tokio::time::sleep(Duration::from_millis(800)).await;
+        assert_eq!(r.available(), 1);
+    }
+
+    #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+    async fn a_panicking_job_is_an_internal_error() {
+        let r = JobRunner::new(1, Duration::from_millis(50), Duration::from_secs(5));
+        let result: Result<(), ApiError> = r
+            .run("test", || -> Result<(), ApiError> {
+                panic!("deliberate test panic")
+            })
+            .await;
+        assert!(matches!(result, Err(ApiError::Internal(_))), "{result:?}");
+        assert_eq!(r.available(), 1);
+    }
+}

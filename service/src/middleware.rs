@@ -1,0 +1,167 @@
+//! The middleware stack around every route, outermost first:
+//!
+//! 1. request id: keeps a client's `x-request-id` or makes a UUID, and returns it;
+//! 2. tracing: one span per request carrying the id, method and path; a log line per response;
+//! 3. HTTP metrics: counts and latency histograms by method, route template and status;
+//! 4. (slot for access control, CORS and rate limits: see [`apply`]);
+//! 5. request timeout: a backstop deadline answered as a problem document;
+//! 6. panic safety net: a panicking handler answers a problem 500 instead of dropping the
+//!    connection.
+//!
+//! Metrics and tracing sit outside everything that can refuse a request, so that refusals
+//! (413, 415, 422, 429, 503) are counted and logged like any answer.
+
+use crate::config::Config;
+use crate::problem::ApiError;
+use axum::Router;
+use axum::extract::{MatchedPath, Request, State};
+use axum::http::{HeaderName, Method};
+use axum::middleware::{self as axum_mw, Next};
+use axum::response::{IntoResponse, Response};
+use std::any::Any;
+use std::time::{Duration, Instant};
+use tower::ServiceBuilder;
+use tower_http::catch_panic::CatchPanicLayer;
+use tower_http::request_id::{MakeRequestUuid, PropagateRequestIdLayer, SetRequestIdLayer};
+use tower_http::trace::{DefaultOnResponse, TraceLayer};
+use tracing::Level;
+
+/// Header carrying the request id.
+pub const REQUEST_ID: HeaderName = HeaderName::from_static("x-request-id");
+
+/// Extra time the backstop timeout gives beyond the job deadline, so that the job runner's
+/// own, more specific answer wins when both would fire.
+const BACKSTOP_MARGIN: Duration = Duration::from_secs(2);
+
+/// Wraps `routes` in the middleware stack described in the module documentation.
+pub fn apply(routes: Router, config: &Config) -> Router {
+    let timeout = config.request_timeout() + BACKSTOP_MARGIN;
+    let inner = ServiceBuilder::new()
+        // Slot for a later issue: access control (API keys), CORS and rate limits belong
+        // here, inside metrics and tracing (so that their refusals are counted and logged)
+        // and outside the timeout.
+        .layer(axum_mw::from_fn_with_state(timeout, enforce_timeout))
+        .layer(CatchPanicLayer::custom(panic_response));
+    let outer = ServiceBuilder::new()
+        .layer(SetRequestIdLayer::new(REQUEST_ID, MakeRequestUuid))
+        .layer(PropagateRequestIdLayer::new(REQUEST_ID))
+        .layer(
+            TraceLayer::new_for_http()
+                .make_span_with(request_span)
+                .on_response(DefaultOnResponse::new().level(Level::INFO)),
+        )
+        .layer(axum_mw::from_fn(track_http_metrics));
+    routes.layer(inner).layer(outer)
+}
+
+fn request_span(req: &Request) -> tracing::Span {
+    let id = req
+        .headers()
+        .get(&REQUEST_ID)
+        .and_then(|v| v.to_str().ok())
+        .unwrap_or_default();
+    let route = req
+        .extensions()
+        .get::<MatchedPath>()
+        .map_or("unmatched", MatchedPath::as_str);
+    tracing::info_span!(
+        "request",
+        request_id = %id,
+        method = %req.method(),
+        path = %req.uri().path(),
+        route = %route,
+    )
+}
+
+/// A bounded label for the method (a client can send any token).
+fn method_label(method: &Method) -> &'static str {
+    match *method {
+        Method::GET => "GET",
+        Method::POST => "POST",
+        Method::HEAD => "HEAD",
+        Method::PUT => "PUT",
+        Method::DELETE => "DELETE",
+        Method::PATCH => "PATCH",
+        Method::OPTIONS => "OPTIONS",
+        _ => "other",
+    }
+}
+
+async fn track_http_metrics(req: Request, next: Next) -> Response {
+    // The route template, not the raw path, keeps the label set bounded.
+    let route = req
+        .extensions()
+        .get::<MatchedPath>()
+        .map_or_else(|| "unmatched".to_string(), |p| p.as_str().to_string());
+    let method = method_label(req.method());
+    let started = Instant::now();
+    let response = next.run(req).await;
+    let status = response.status().as_u16().to_string();
+    let labels = [
+        ("method", method.to_string()),
+        ("route", route),
+        ("status", status),
+    ];
+    metrics::counter!("ringdrag_http_requests_total", &labels).increment(1);
+    metrics::histogram!("ringdrag_http_request_duration_seconds", &labels)
+        .record(started.elapsed().as_secs_f64());
+    response
+}
+
+async fn enforce_timeout(State(timeout): State<Duration>, req: Request, next: Next) -> Response {
+    match tokio::time::timeout(timeout, next.run(req)).await {
+        Ok(response) => response,
+        Err(_elapsed) => ApiError::Timeout {
+            timeout_s: timeout.as_secs(),
+            retry_after_s: 1,
+        }
+        .into_response(),
+    }
+}
+
+fn panic_response(payload: Box<dyn Any + Send + 'static>) -> Response {
+    let what = payload
+        .downcast_ref::<&str>()
+        .map(|s| (*s).to_string())
+        .or_else(|| payload.downcast_ref::<String>().cloned())
+        .unwrap_or_else(|| "unknown panic payload".to_string());
+    ApiError::Internal(format!("handler panicked: {what}")).into_response()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use axum::body::Body;
+    use axum::http::{Request as HttpRequest, StatusCode, header};
+    use axum::routing::get;
+    use tower::ServiceExt;
+
+    async fn boom() -> &'static str {
+        panic!("deliberate test panic")
+    }
+
+    #[tokio::test]
+    async fn a_panicking_handler_answers_a_problem_500() {
+        let app = apply(Router::new().route("/boom", get(boom)), &Config::defaults());
+        let request = HttpRequest::get("/boom")
+            .header("x-request-id", "panic-probe")
+            .body(Body::empty());
+        let Ok(request) = request else {
+            panic!("request builds")
+        };
+        // The router's error type is Infallible.
+        let Ok(response) = app.oneshot(request).await;
+        assert_eq!(response.status(), StatusCode::INTERNAL_SERVER_ERROR);
+        assert_eq!(
+            response
+                .headers()
+                .get(header::CONTENT_TYPE)
+                .map(|v| v.as_bytes()),
+            Some(crate::problem::PROBLEM_JSON.as_bytes())
+        );
+        assert_eq!(
+            response.headers().get(&REQUEST_ID).map(|v| v.as_bytes()),
+            Some(&b"panic-probe"[..])
+        );
+    }
+}

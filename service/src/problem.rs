@@ -1,0 +1,406 @@
+//! Errors of the HTTP layer, and their one mapping to RFC 9457 problem responses.
+//!
+//! Policy: every failure a request can meet ends as an [`ApiError`], and [`ApiError`] has the
+//! only `IntoResponse` that writes an error body. Clients always receive
+//! `application/problem+json` with `type`, `title`, `status` and `detail`; validation failures
+//! add `errors: [{path, message}]`, where `path` is the dotted path of the offending field in
+//! the request body (`design.tube.inner_diameter_m`, `speeds_m_per_s[3]`). Model errors
+//! ([`ModelError`]) are mapped here and nowhere else.
+//!
+//! Status policy: malformed JSON 400, wrong media type 415, body too large 413, unknown route
+//! 404, wrong method 405, invalid input or a job above the service limits 422, overload or a
+//! job that outlives the request timeout 503 with `Retry-After`. A 500 is reserved for defects
+//! of the service itself (a panic caught by the safety net); no input is meant to produce one.
+
+use axum::http::{HeaderValue, StatusCode, header};
+use axum::response::{IntoResponse, Response};
+use ringdrag_model::{FieldError, ModelError};
+use serde::Serialize;
+use utoipa::ToSchema;
+
+/// Media type of problem documents (RFC 9457, section 3).
+pub const PROBLEM_JSON: &str = "application/problem+json";
+
+/// Prefix of the problem type URIs of this service. The types are URNs: stable identifiers
+/// that clients can match on, not links.
+const TYPE_PREFIX: &str = "urn:ringdrag:problem:";
+
+/// One invalid field of a request.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, ToSchema)]
+pub struct FieldProblem {
+    /// Dotted path of the offending field in the request body, e.g.
+    /// `design.tube.inner_diameter_m` or `speeds_m_per_s[2]`; empty for the body as a whole.
+    pub path: String,
+    /// What is wrong with the field, in words an engineer can act on.
+    pub message: String,
+}
+
+/// An RFC 9457 problem document, the body of every error response.
+#[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
+pub struct Problem {
+    /// URI identifying the problem type: `about:blank` for plain HTTP errors (404, 405, 413,
+    /// 415), otherwise `urn:ringdrag:problem:<name>` (`malformed-json`, `invalid-input`,
+    /// `job-too-large`, `not-computable`, `overloaded`, `timeout`, `shutting-down`,
+    /// `internal`).
+    #[serde(rename = "type")]
+    pub problem_type: String,
+    /// Short, human-readable summary of the problem type.
+    pub title: String,
+    /// HTTP status code of this response.
+    pub status: u16,
+    /// Human-readable explanation of this occurrence.
+    pub detail: String,
+    /// URI reference of this occurrence (the request path), when known.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub instance: Option<String>,
+    /// Every invalid field, for validation failures (`invalid-input`, `job-too-large`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub errors: Option<Vec<FieldProblem>>,
+}
+
+/// Everything that can go wrong while answering a request.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum ApiError {
+    /// The body is not well-formed JSON (syntax error, truncated, nested too deeply).
+    #[error("malformed JSON: {0}")]
+    MalformedJson(String),
+    /// The request body is not declared as JSON.
+    #[error("unsupported media type: {0}")]
+    UnsupportedMediaType(String),
+    /// The request body exceeds the configured limit.
+    #[error("request body larger than {limit_bytes} bytes")]
+    PayloadTooLarge {
+        /// The limit, bytes.
+        limit_bytes: usize,
+    },
+    /// One or more fields are invalid (wrong type, out of range, unknown, inconsistent).
+    #[error("invalid input")]
+    Invalid(Vec<FieldProblem>),
+    /// The job would exceed a work limit of the service; the field that drives it is named.
+    #[error("job too large")]
+    JobTooLarge(Vec<FieldProblem>),
+    /// The model could not compute this input (outside the range where its method holds).
+    #[error("not computable: {0}")]
+    NotComputable(String),
+    /// No route matches the path.
+    #[error("no route for {0}")]
+    NotFound(String),
+    /// The route exists but not for this method.
+    #[error("method not allowed")]
+    MethodNotAllowed,
+    /// Every job slot stayed busy for the whole queue wait.
+    #[error("overloaded")]
+    Overloaded {
+        /// Suggested wait before retrying, s.
+        retry_after_s: u64,
+    },
+    /// The request did not finish within the request timeout.
+    #[error("timed out after {timeout_s} s")]
+    Timeout {
+        /// The timeout, s.
+        timeout_s: u64,
+        /// Suggested wait before retrying, s.
+        retry_after_s: u64,
+    },
+    /// The service is shutting down and takes no new work.
+    #[error("shutting down")]
+    ShuttingDown,
+    /// A defect of the service (a caught panic, a lost worker). Never caused by valid or
+    /// invalid input by design.
+    #[error("internal error: {0}")]
+    Internal(String),
+}
+
+impl ApiError {
+    /// An [`ApiError::Invalid`] with one field.
+    pub fn invalid(path: impl Into<String>, message: impl Into<String>) -> Self {
+        Self::Invalid(vec![FieldProblem {
+            path: path.into(),
+            message: message.into(),
+        }])
+    }
+
+    /// HTTP status of this error.
+    pub fn status(&self) -> StatusCode {
+        match self {
+            Self::MalformedJson(_) => StatusCode::BAD_REQUEST,
+            Self::UnsupportedMediaType(_) => StatusCode::UNSUPPORTED_MEDIA_TYPE,
+            Self::PayloadTooLarge { .. } => StatusCode::PAYLOAD_TOO_LARGE,
+            Self::Invalid(_) | Self::JobTooLarge(_) | Self::NotComputable(_) => {
+                StatusCode::UNPROCESSABLE_ENTITY
+            }
+            Self::NotFound(_) => StatusCode::NOT_FOUND,
+            Self::MethodNotAllowed => StatusCode::METHOD_NOT_ALLOWED,
+            Self::Overloaded { .. } | Self::Timeout { .. } | Self::ShuttingDown => {
+                StatusCode::SERVICE_UNAVAILABLE
+            }
+            Self::Internal(_) => StatusCode::INTERNAL_SERVER_ERROR,
+        }
+    }
+
+    /// The problem document of this error.
+    pub fn problem(&self) -> Problem {
+        let status = self.status();
+        let (name, title, detail, errors) = match self {
+            Self::MalformedJson(d) => (
+                Some("malformed-json"),
+                "Malformed JSON",
+                format!("The request body is not well-formed JSON: {d}"),
+                None,
+            ),
+            Self::UnsupportedMediaType(d) => (None, "Unsupported Media Type", d.clone(), None),
+            Self::PayloadTooLarge { limit_bytes } => (
+                None,
+                "Payload Too Large",
+                format!("The request body exceeds the service limit of {limit_bytes} bytes."),
+                None,
+            ),
+            Self::Invalid(errs) => (
+                Some("invalid-input"),
+                "Invalid input",
+                summary("The request has invalid fields", errs),
+                Some(errs.clone()),
+            ),
+            Self::JobTooLarge(errs) => (
+                Some("job-too-large"),
+                "Job above the service limits",
+                summary("The job exceeds a limit of this service", errs),
+                Some(errs.clone()),
+            ),
+            Self::NotComputable(d) => (
+                Some("not-computable"),
+                "Not computable",
+                format!(
+                    "The model could not compute this input: {d}. Change the design or the \
+                     resolution."
+                ),
+                None,
+            ),
+            Self::NotFound(path) => (
+                None,
+                "Not Found",
+                format!("No resource at {path}; see GET /openapi.json for the routes."),
+                None,
+            ),
+            Self::MethodNotAllowed => (
+                None,
+                "Method Not Allowed",
+                "This resource does not support the request method; the Allow header lists \
+                 those it does."
+                    .to_string(),
+                None,
+            ),
+            Self::Overloaded { retry_after_s } => (
+                Some("overloaded"),
+                "Service overloaded",
+                format!(
+                    "Every computation slot stayed busy for the whole queue wait; retry in about \
+                     {retry_after_s} s."
+                ),
+                None,
+            ),
+            Self::Timeout { timeout_s, .. } => (
+                Some("timeout"),
+                "Request timed out",
+                format!(
+                    "The request did not finish within {timeout_s} s. Retry later, or ask for \
+                     less work (fewer speeds or samples, a coarser resolution, a shorter time)."
+                ),
+                None,
+            ),
+            Self::ShuttingDown => (
+                Some("shutting-down"),
+                "Shutting down",
+                "The service is shutting down and takes no new work; retry on another instance."
+                    .to_string(),
+                None,
+            ),
+            Self::Internal(_) => (
+                Some("internal"),
+                "Internal error",
+                "The service failed unexpectedly; the request id in the x-request-id header \
+                 identifies the log entry."
+                    .to_string(),
+                None,
+            ),
+        };
+        Problem {
+            problem_type: name.map_or_else(
+                || "about:blank".to_string(),
+                |n| format!("{TYPE_PREFIX}{n}"),
+            ),
+            title: title.to_string(),
+            status: status.as_u16(),
+            detail,
+            instance: match self {
+                Self::NotFound(path) => Some(path.clone()),
+                _ => None,
+            },
+            errors,
+        }
+    }
+}
+
+fn summary(lead: &str, errs: &[FieldProblem]) -> String {
+    let listed: Vec<String> = errs
+        .iter()
+        .map(|e| {
+            if e.path.is_empty() {
+                e.message.clone()
+            } else {
+                format!("{}: {}", e.path, e.message)
+            }
+        })
+        .collect();
+    format!("{lead}: {}.", listed.join("; "))
+}
+
+impl IntoResponse for ApiError {
+    fn into_response(self) -> Response {
+        let status = self.status();
+        if let Self::Internal(reason) = &self {
+            tracing::error!(%reason, "internal error");
+        }
+        let body = match serde_json::to_vec(&self.problem()) {
+            Ok(body) => body,
+            // Serialising strings and integers cannot fail; keep a valid document regardless.
+            Err(_) => {
+                br#"{"type":"about:blank","title":"Error","status":500,"detail":""}"#.to_vec()
+            }
+        };
+        let mut response = (status, body).into_response();
+        let headers = response.headers_mut();
+        headers.insert(header::CONTENT_TYPE, HeaderValue::from_static(PROBLEM_JSON));
+        match self {
+            Self::Overloaded { retry_after_s } | Self::Timeout { retry_after_s, .. } => {
+                headers.insert(header::RETRY_AFTER, HeaderValue::from(retry_after_s));
+            }
+            Self::ShuttingDown => {
+                headers.insert(header::RETRY_AFTER, HeaderValue::from(1u64));
+            }
+            _ => {}
+        }
+        response
+    }
+}
+
+/// The request-body path of a model-side field path.
+///
+/// The model names design fields relative to the design object (`tube.inner_diameter_m`) and
+/// job options by their option names (`options.ring_width_m`); the service reports paths into
+/// the request body, so design fields gain the `design.` prefix and options map to the request
+/// fields that set them.
+pub fn request_path(model_path: &str) -> String {
+    if let Some(option) = model_path.strip_prefix("options.") {
+        let mapped = match option {
+            "ring_width_m" => "resolution.ring_width_m",
+            "radial_layers" => "resolution.radial_layers",
+            "start_position_m" => "start.position_m",
+            "start_speed_m_per_s" => "start.speed_m_per_s",
+            other => other,
+        };
+        return mapped.to_string();
+    }
+    let design_root = ["magnets", "tube", "load"];
+    let head = model_path.split(['.', '[']).next().unwrap_or_default();
+    if design_root.contains(&head) {
+        format!("design.{model_path}")
+    } else {
+        model_path.to_string()
+    }
+}
+
+fn field_problems(errors: Vec<FieldError>) -> Vec<FieldProblem> {
+    errors
+        .into_iter()
+        .map(|e| FieldProblem {
+            path: request_path(&e.path),
+            message: e.message,
+        })
+        .collect()
+}
+
+impl From<ModelError> for ApiError {
+    fn from(err: ModelError) -> Self {
+        match err {
+            ModelError::Invalid(errors) => Self::Invalid(field_problems(errors)),
+            ModelError::TooLarge { path, message } => Self::JobTooLarge(vec![FieldProblem {
+                path: request_path(&path),
+                message,
+            }]),
+            // Inputs outside the range where the discretised model holds, or a solver that did
+            // not converge on them: the request cannot be computed as given.
+            other @ (ModelError::NotPositiveDefinite { .. } | ModelError::Numerical(_)) => {
+                Self::NotComputable(other.to_string())
+            }
+            // `ModelError` is non-exhaustive: a future variant is still an answer about the input.
+            other => Self::NotComputable(other.to_string()),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn model_paths_become_request_paths() {
+        assert_eq!(
+            request_path("tube.inner_diameter_m"),
+            "design.tube.inner_diameter_m"
+        );
+        assert_eq!(request_path("magnets.count"), "design.magnets.count");
+        assert_eq!(request_path("design.tube.length_m"), "design.tube.length_m");
+        assert_eq!(
+            request_path("options.ring_width_m"),
+            "resolution.ring_width_m"
+        );
+        assert_eq!(request_path("options.samples"), "samples");
+        assert_eq!(request_path("speeds_m_per_s"), "speeds_m_per_s");
+    }
+
+    #[test]
+    fn statuses_follow_the_policy() {
+        // source: RFC 9110 (HTTP semantics) status codes, as chosen in the module doc.
+        assert_eq!(
+            ApiError::MalformedJson(String::new()).status().as_u16(),
+            400
+        );
+        assert_eq!(
+            ApiError::PayloadTooLarge { limit_bytes: 1 }
+                .status()
+                .as_u16(),
+            413
+        );
+        assert_eq!(
+            ApiError::UnsupportedMediaType(String::new())
+                .status()
+                .as_u16(),
+            415
+        );
+        assert_eq!(ApiError::invalid("a", "b").status().as_u16(), 422);
+        assert_eq!(
+            ApiError::Overloaded { retry_after_s: 1 }.status().as_u16(),
+            503
+        );
+        let p = ApiError::from(ModelError::field("tube.material", "unknown")).problem();
+        assert_eq!(p.problem_type, "urn:ringdrag:problem:invalid-input");
+        assert_eq!(p.status, 422);
+        let errs = p.errors.unwrap_or_default();
+        assert_eq!(errs[0].path, "design.tube.material");
+    }
+
+    #[test]
+    fn retry_after_is_set_on_overload() {
+        let r = ApiError::Overloaded { retry_after_s: 3 }.into_response();
+        assert_eq!(r.status(), StatusCode::SERVICE_UNAVAILABLE);
+        assert_eq!(
+            r.headers().get(header::RETRY_AFTER),
+            Some(&HeaderValue::from(3u64))
+        );
+        assert_eq!(
+            r.headers().get(header::CONTENT_TYPE),
+            Some(&HeaderValue::from_static(PROBLEM_JSON))
+        );
+    }
+}

@@ -1,0 +1,167 @@
+//! Many requests at once: right answers, bounded computation, shed load, deadlines, and a
+//! liveness probe that keeps answering.
+
+use crate::helpers::{Logs, expect_problem, heavy_force_curve, rel, sample_design, spawn_app_with};
+use serde_json::{Value, json};
+use std::time::{Duration, Instant};
+
+fn in_flight(metrics: &str) -> f64 {
+    metrics
+        .lines()
+        .find(|l| l.starts_with(r#"ringdrag_jobs_in_flight{job="force_curve"}"#))
+        .and_then(|l| l.rsplit(' ').next())
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(0.0)
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn many_concurrent_requests_are_answered_correctly() {
+    let app = spawn_app_with(&["--queue-wait-ms", "60000"], &[], Logs::Quiet).await;
+    let n = 24;
+    let mut tasks = Vec::new();
+    for k in 1..=n {
+        let client = app.client.clone();
+        let url = format!("{}/v1/force-curve", app.base);
+        let mut design = sample_design();
+        design["tube"]["conductivity_s_per_m"] = json!(1.0e6 * k as f64);
+        let body = json!({ "design": design, "speeds_m_per_s": [0.01, 0.1] });
+        tasks.push(tokio::spawn(async move {
+            let r = client.post(url).json(&body).send().await.expect("sent");
+            assert_eq!(r.status().as_u16(), 200);
+            let v: Value = r.json().await.expect("json");
+            (k, v["damping_n_s_per_m"].as_f64().expect("damping"))
+        }));
+    }
+    let mut results = Vec::new();
+    for t in tasks {
+        results.push(t.await.expect("task"));
+    }
+    // Each answer belongs to its own request: the low-speed damping is proportional to the
+    // conductivity (source: Levin, da Silveira & Rizzato, Am. J. Phys. 74, 815, 2006).
+    let (_, base) = results[0];
+    for (k, damping) in results {
+        assert!(
+            rel(damping, base * k as f64) < 1e-6,
+            "request {k}: damping {damping}, expected {}",
+            base * k as f64
+        );
+    }
+    app.assert_healthy().await;
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn liveness_answers_while_every_slot_computes() {
+    let app = spawn_app_with(
+        &["--max-concurrent-jobs", "1", "--queue-wait-ms", "60000"],
+        &[],
+        Logs::Quiet,
+    )
+    .await;
+    let body = heavy_force_curve(2000);
+    let mut tasks = Vec::new();
+    for _ in 0..6 {
+        let client = app.client.clone();
+        let url = format!("{}/v1/force-curve", app.base);
+        let body = body.clone();
+        tasks.push(tokio::spawn(async move {
+            client
+                .post(url)
+                .json(&body)
+                .send()
+                .await
+                .expect("sent")
+                .status()
+                .as_u16()
+        }));
+    }
+    tokio::time::sleep(Duration::from_millis(100)).await;
+    let mut slowest = Duration::ZERO;
+    let mut max_in_flight: f64 = 0.0;
+    for _ in 0..10 {
+        let started = Instant::now();
+        app.assert_healthy().await;
+        slowest = slowest.max(started.elapsed());
+        let metrics = app.get("/metrics").await.text().await.expect("metrics");
+        max_in_flight = max_in_flight.max(in_flight(&metrics));
+        tokio::time::sleep(Duration::from_millis(50)).await;
+    }
+    // One computation at a time (the configured bound), and liveness in well under the
+    // 250 ms that one heavy job takes (common practice for probe latency on an idle runtime).
+    assert!(max_in_flight <= 1.0, "in flight {max_in_flight}");
+    assert!(
+        slowest < Duration::from_millis(200),
+        "healthz took {slowest:?}"
+    );
+    for t in tasks {
+        assert_eq!(t.await.expect("task"), 200);
+    }
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn overload_is_shed_with_503_and_retry_after() {
+    let app = spawn_app_with(
+        &["--max-concurrent-jobs", "1", "--queue-wait-ms", "0"],
+        &[],
+        Logs::Quiet,
+    )
+    .await;
+    let body = heavy_force_curve(2000);
+    let mut tasks = Vec::new();
+    for _ in 0..8 {
+        let client = app.client.clone();
+        let url = format!("{}/v1/force-curve", app.base);
+        let body = body.clone();
+        tasks.push(tokio::spawn(async move {
+            client.post(url).json(&body).send().await.expect("sent")
+        }));
+    }
+    let (mut ok, mut shed) = (0, 0);
+    for t in tasks {
+        let response = t.await.expect("task");
+        match response.status().as_u16() {
+            200 => ok += 1,
+            503 => {
+                let retry: u64 = response
+                    .headers()
+                    .get("retry-after")
+                    .and_then(|v| v.to_str().ok())
+                    .and_then(|v| v.parse().ok())
+                    .expect("Retry-After in whole seconds");
+                assert!(retry >= 1);
+                let problem = expect_problem(response, 503).await;
+                assert_eq!(problem["type"], "urn:ringdrag:problem:overloaded");
+                shed += 1;
+            }
+            other => panic!("unexpected status {other}"),
+        }
+    }
+    assert!(ok >= 1 && shed >= 1, "ok {ok}, shed {shed}");
+    app.assert_healthy().await;
+    let metrics = app.get("/metrics").await.text().await.expect("metrics");
+    assert!(metrics.contains(r#"ringdrag_jobs_total{job="force_curve",outcome="overloaded"}"#));
+    assert!(metrics.contains(r#"route="/v1/force-curve",status="503"}"#));
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn a_job_past_the_request_timeout_is_503() {
+    // A larger speed cap makes one force curve take several seconds.
+    let app = spawn_app_with(
+        &["--request-timeout-s", "1", "--max-speeds", "100000"],
+        &[],
+        Logs::Quiet,
+    )
+    .await;
+    let started = Instant::now();
+    let response = app
+        .post_json("/v1/force-curve", &heavy_force_curve(40_000))
+        .await;
+    let elapsed = started.elapsed();
+    assert!(response.headers().get("retry-after").is_some());
+    let problem = expect_problem(response, 503).await;
+    assert_eq!(problem["type"], "urn:ringdrag:problem:timeout");
+    assert!(
+        elapsed < Duration::from_secs(3),
+        "answered after {elapsed:?}"
+    );
+    app.assert_healthy().await;
+}

@@ -1,0 +1,83 @@
+//! The invented demo requests in `examples/` get the answers they are meant to get, and each
+//! is listed (as invented) in `examples/README.md`.
+
+use crate::helpers::{error_paths, expect_problem, spawn_app};
+use serde_json::Value;
+use std::path::PathBuf;
+
+fn examples_dir() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("..")
+        .join("examples")
+}
+
+fn example(name: &str) -> Value {
+    let text = std::fs::read_to_string(examples_dir().join(name))
+        .unwrap_or_else(|e| panic!("examples/{name}: {e}"));
+    serde_json::from_str(&text).unwrap_or_else(|e| panic!("examples/{name}: {e}"))
+}
+
+#[test]
+fn every_example_is_listed_as_invented() {
+    let readme = std::fs::read_to_string(examples_dir().join("README.md")).expect("README");
+    assert!(readme.contains("invented"));
+    let entries = std::fs::read_dir(examples_dir()).expect("examples dir");
+    for entry in entries {
+        let name = entry
+            .expect("entry")
+            .file_name()
+            .to_string_lossy()
+            .to_string();
+        if name.ends_with(".json") {
+            assert!(readme.contains(&format!("`{name}`")), "{name} not listed");
+        }
+    }
+}
+
+#[tokio::test]
+async fn the_force_curve_examples_compute() {
+    let app = spawn_app().await;
+    for name in [
+        "force-curve-copper-drop.json",
+        "force-curve-aluminium-stack.json",
+    ] {
+        let body = app.post_ok("/v1/force-curve", &example(name)).await;
+        assert!(
+            body["peak_force_n"].as_f64().is_some_and(|f| f > 0.0),
+            "{name}: {body}"
+        );
+    }
+}
+
+#[tokio::test]
+async fn the_simulate_examples_compute() {
+    let app = spawn_app().await;
+    for name in [
+        "simulate-copper-drop.json",
+        "simulate-incline-carriage.json",
+    ] {
+        let body = app.post_ok("/v1/simulate", &example(name)).await;
+        assert!(
+            body["summary"]["max_speed_m_per_s"]
+                .as_f64()
+                .is_some_and(|v| v > 0.0),
+            "{name}: {body}"
+        );
+    }
+}
+
+#[tokio::test]
+async fn the_invalid_example_names_its_faults() {
+    let app = spawn_app().await;
+    let response = app
+        .post_json(
+            "/v1/force-curve",
+            &example("invalid-magnet-wider-than-bore.json"),
+        )
+        .await;
+    let problem = expect_problem(response, 422).await;
+    let paths = error_paths(&problem);
+    for named in ["design.magnets.outer_diameter_m", "design.tube.material"] {
+        assert!(paths.iter().any(|p| p == named), "{named} not in {paths:?}");
+    }
+}

@@ -1,0 +1,14 @@
+//! End-to-end tests of the `ringdrag` service: each test starts the real binary on a free port
+//! and talks HTTP to it (one test binary, linked once).
+//!
+//! Run with `cargo test --release -p ringdrag-service --test api`.
+
+mod concurrency;
+mod errors;
+mod examples;
+mod force_curve;
+mod helpers;
+mod materials;
+mod openapi;
+mod operations;
+mod simulate;
