@@ -38,7 +38,7 @@ use crate::forcecurve::{ForceCurve, ForceCurveOptions, ForcePoint};
 use crate::limits::Limits;
 use crate::quadrature::gauss_legendre;
 use crate::report::{Discretisation, Fidelity, ModelInfo};
-use crate::symeig::jacobi;
+use crate::symeig::{jacobi, jacobi_from};
 use std::f64::consts::PI;
 
 /// Radial layers used by default, before the wall-thickness rule (see [`default_layers`]).
@@ -140,6 +140,7 @@ impl SteadySolver {
         let mut nodes = Vec::with_capacity(n_nodes);
         let mut mat = vec![0.0; layers * layers];
         let mut psi = vec![0.0; layers];
+        let mut previous: Option<Vec<f64>> = None;
         let mut ie = vec![0.0; layers];
         let mut ke = vec![0.0; layers];
         for (&kappa, &weight) in kappas.iter().zip(&weights) {
@@ -176,7 +177,10 @@ impl SteadySolver {
                 }
                 psi[i] = ks * p * d[i];
             }
-            let eig = jacobi(&mat, layers);
+            let eig = match &previous {
+                Some(q) => jacobi_from(&mat, layers, q),
+                None => jacobi(&mat, layers),
+            };
             let mut strength = Vec::with_capacity(layers);
             let mut time_scale = Vec::with_capacity(layers);
             for n in 0..layers {
@@ -185,6 +189,7 @@ impl SteadySolver {
                 strength.push(weight * kappa * kappa * h * h);
                 time_scale.push(kappa * eig.values[n].max(0.0));
             }
+            previous = Some(eig.vectors);
             nodes.push(Node {
                 strength,
                 time_scale,
@@ -204,7 +209,7 @@ impl SteadySolver {
         for node in &self.nodes {
             for (s, t) in node.strength.iter().zip(&node.time_scale) {
                 let x = t * v;
-                sum += s / x.mul_add(x, 1.0);
+                sum += s / (x * x + 1.0);
             }
         }
         v * sum / PI
