@@ -528,9 +528,11 @@ impl Design {
             }
         };
         let count = m.count as usize;
-        if count > 1 && m.polarity == Polarity::Alternating {
-            if let Some(g) = grade.filter(|g| !g.suits_opposed_stacks) {
-                cautions.push(Caution::new(
+        if count > 1
+            && m.polarity == Polarity::Alternating
+            && let Some(g) = grade.filter(|g| !g.suits_opposed_stacks)
+        {
+            cautions.push(Caution::new(
                     CautionKind::Demagnetisation,
                     format!(
                         "Grade {} has low coercivity: magnets facing like poles will partly demagnetise \
@@ -538,7 +540,6 @@ impl Design {
                         g.id
                     ),
                 ));
-            }
         }
         let magnets = MagnetStack {
             outer_radius_m: m.outer_diameter_m / 2.0,
@@ -597,10 +598,10 @@ impl Design {
                  computed.",
             ));
         }
-        if let Some(c) = conductor {
-            if c.id.starts_with("stainless") {
-                cautions.push(Caution::new(CautionKind::ModelLimit, c.notes));
-            }
+        if let Some(c) = conductor
+            && c.id.starts_with("stainless")
+        {
+            cautions.push(Caution::new(CautionKind::ModelLimit, c.notes));
         }
         let a = t.inner_diameter_m / 2.0;
         let tube = Tube {

@@ -244,13 +244,13 @@ pub fn size(req: &SizeRequest, limits: &Limits) -> Result<SizeResult, ModelError
             "must be between 1 and 10",
         ));
     }
-    if let Some(t) = req.hot_temperature_c {
-        if !(t.is_finite() && (-60.0..=400.0).contains(&t)) {
-            return Err(ModelError::field(
-                "hot_temperature_c",
-                "must be between -60 and 400 C",
-            ));
-        }
+    if let Some(t) = req.hot_temperature_c
+        && !(t.is_finite() && (-60.0..=400.0).contains(&t))
+    {
+        return Err(ModelError::field(
+            "hot_temperature_c",
+            "must be between -60 and 400 C",
+        ));
     }
     let bounds = req.target.bounds();
     if bounds.is_empty() {

@@ -127,10 +127,10 @@ impl SteadySolver {
         let kmax = (grid.reach_efolds / (2.0 * gap))
             .max(60.0 / b)
             .max(20.0 / stack.magnet_length_m.min(b));
-        let umax = (1.0 + kmax / kc).ln();
+        let umax = (kmax / kc).ln_1p();
         let n_nodes = (umax * grid.nodes_per_unit).ceil() as usize + 1;
         let kappas: Vec<f64> = (0..n_nodes)
-            .map(|i| kc * ((umax * i as f64 / (n_nodes - 1) as f64).exp() - 1.0))
+            .map(|i| kc * (umax * i as f64 / (n_nodes - 1) as f64).exp_m1())
             .collect();
 
         let weights = stack_weights(design, &kappas);
@@ -485,16 +485,16 @@ pub fn force_curve(
             }
         }
     }
-    if let Some(n) = opts.radial_layers {
-        if n == 0 || n > limits.max_radial_layers.min(MAX_LAYERS) {
-            return Err(ModelError::field(
-                "resolution.radial_layers",
-                format!(
-                    "must be between 1 and {}",
-                    limits.max_radial_layers.min(MAX_LAYERS)
-                ),
-            ));
-        }
+    if let Some(n) = opts.radial_layers
+        && (n == 0 || n > limits.max_radial_layers.min(MAX_LAYERS))
+    {
+        return Err(ModelError::field(
+            "resolution.radial_layers",
+            format!(
+                "must be between 1 and {}",
+                limits.max_radial_layers.min(MAX_LAYERS)
+            ),
+        ));
     }
     let layers = opts.radial_layers.unwrap_or_else(|| default_layers(design));
     let solver = SteadySolver::build(design, layers, FINE);
@@ -514,10 +514,10 @@ pub fn force_curve(
     let mut err = (coarse.damping_n_s_per_m / damping - 1.0)
         .abs()
         .max((coarse.peak_force_n / peak - 1.0).abs());
-    if let (Some(t), Some(tc)) = (terminal, coarse.terminal_speed_m_per_s) {
-        if t > 0.0 {
-            err = err.max((tc / t - 1.0).abs());
-        }
+    if let (Some(t), Some(tc)) = (terminal, coarse.terminal_speed_m_per_s)
+        && t > 0.0
+    {
+        err = err.max((tc / t - 1.0).abs());
     }
 
     let speeds = match &opts.speeds_m_per_s {
@@ -551,16 +551,16 @@ pub fn force_curve(
             "The load does not drive the stack (friction or an uphill incline exceeds the driving \
              force): there is no steady motion, terminal speed 0.",
         ));
-    } else if let Some(t) = terminal {
-        if t > 0.5 * critical {
-            cautions.push(Caution::new(
-                CautionKind::Runaway,
-                format!(
-                    "Terminal speed {t:.4} m/s is above half the critical speed {critical:.4} m/s: \
+    } else if let Some(t) = terminal
+        && t > 0.5 * critical
+    {
+        cautions.push(Caution::new(
+            CautionKind::Runaway,
+            format!(
+                "Terminal speed {t:.4} m/s is above half the critical speed {critical:.4} m/s: \
                      little margin against runaway; a heavier or hotter case may not be held."
-                ),
-            ));
-        }
+            ),
+        ));
     }
     if err > 0.01 {
         cautions.push(Caution::new(

@@ -81,13 +81,13 @@ impl Tolerances {
             ("wall_thickness_m", self.wall_thickness_m, 0.01),
         ];
         for (name, v, max) in fields {
-            if let Some(v) = v {
-                if !(v.is_finite() && (0.0..=max).contains(&v)) {
-                    return Err(ModelError::field(
-                        format!("{at}.{name}"),
-                        format!("must be between 0 and {max}"),
-                    ));
-                }
+            if let Some(v) = v
+                && !(v.is_finite() && (0.0..=max).contains(&v))
+            {
+                return Err(ModelError::field(
+                    format!("{at}.{name}"),
+                    format!("must be between 0 and {max}"),
+                ));
             }
         }
         Ok(())
