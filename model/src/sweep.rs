@@ -267,12 +267,36 @@ impl SweepPlan {
 
     /// Runs every point in parallel, handing each to `sink` as it finishes (in no fixed order).
     pub fn run(&self, sink: impl Fn(SweepPoint) + Sync + Send) {
+        self.run_while(|| true, sink);
+    }
+
+    /// Like [`SweepPlan::run`], but a point not yet started is skipped (and not handed to the
+    /// sink) once `keep_going` answers false: a caller whose client has gone, or whose deadline
+    /// has passed, stops the remaining work. Points already running finish.
+    pub fn run_while(
+        &self,
+        keep_going: impl Fn() -> bool + Sync + Send,
+        sink: impl Fn(SweepPoint) + Sync + Send,
+    ) {
         let needs_steady = self.metrics.iter().any(|m| m.needs_steady());
         let groups = self.len() / self.group_size.max(1);
         let slots: Vec<(Mutex<Option<Arc<SteadySolver>>>, AtomicUsize)> = (0..groups)
             .map(|_| (Mutex::new(None), AtomicUsize::new(self.group_size)))
             .collect();
+        // A group's solver is dropped once its last point is done (or skipped).
+        let release = |index: usize| {
+            if needs_steady {
+                let (slot, remaining) = &slots[index / self.group_size];
+                if remaining.fetch_sub(1, Ordering::AcqRel) == 1 {
+                    *slot.lock().unwrap_or_else(|p| p.into_inner()) = None;
+                }
+            }
+        };
         (0..self.len()).into_par_iter().for_each(|index| {
+            if !keep_going() {
+                release(index);
+                return;
+            }
             let values = self.design_at(index).and_then(|design| {
                 let solver = if needs_steady {
                     let (slot, _) = &slots[index / self.group_size];
@@ -297,12 +321,7 @@ impl SweepPlan {
                     solver.as_deref(),
                 )
             });
-            if needs_steady {
-                let (slot, remaining) = &slots[index / self.group_size];
-                if remaining.fetch_sub(1, Ordering::AcqRel) == 1 {
-                    *slot.lock().unwrap_or_else(|p| p.into_inner()) = None;
-                }
-            }
+            release(index);
             sink(self.point(index, values));
         });
     }

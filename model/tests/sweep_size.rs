@@ -261,3 +261,34 @@ fn tolerance_bands_bracket_the_nominal_and_scale_as_expected() {
     let nominal = terminal_of(&base()).expect("held");
     assert!(t.min.expect("min") < nominal && nominal < t.max.expect("max"));
 }
+
+#[test]
+fn a_stopped_sweep_skips_the_points_not_yet_started() {
+    use std::sync::atomic::{AtomicUsize, Ordering};
+    let plan = SweepPlan::new(
+        base(),
+        vec![SweepAxis::linspace(
+            "tube.wall_thickness_m",
+            0.001,
+            0.003,
+            50,
+        )],
+        vec![Metric::Damping],
+        StrokeOptions::default(),
+        Limits::default(),
+    )
+    .expect("plan");
+    let delivered = AtomicUsize::new(0);
+    plan.run_while(
+        || delivered.load(Ordering::SeqCst) < 5,
+        |_| {
+            delivered.fetch_add(1, Ordering::SeqCst);
+        },
+    );
+    // At most one point per worker thread can be in flight when the flag turns (common practice).
+    let n = delivered.load(Ordering::SeqCst);
+    assert!(
+        (5..5 + rayon::current_num_threads() + 1).contains(&n),
+        "{n} points delivered"
+    );
+}
