@@ -56,6 +56,9 @@ pub enum ModelError {
     /// A numerical procedure failed to converge.
     #[error("numerical failure: {0}")]
     Numerical(String),
+    /// The caller stopped the job before it finished (its deadline passed).
+    #[error("the job was stopped before it finished")]
+    Cancelled,
 }
 
 fn summarise(errors: &[FieldError]) -> String {

@@ -164,6 +164,7 @@ struct Evaluation {
 
 struct Search<'a> {
     req: &'a SizeRequest,
+    keep_going: &'a (dyn Fn() -> bool + Sync),
     limits: &'a Limits,
     bounds: Vec<Bound>,
     metrics: Vec<Metric>,
@@ -178,6 +179,9 @@ impl Search<'_> {
     }
 
     fn evaluate(&mut self, x: f64) -> Result<Evaluation, ModelError> {
+        if !(self.keep_going)() {
+            return Err(ModelError::Cancelled);
+        }
         self.evaluations += 1;
         let cold = Design::from_spec(&self.spec_at(x)?)?;
         let hot = match self.req.hot_temperature_c {
@@ -230,6 +234,16 @@ impl Search<'_> {
 
 /// Sizes one field. See the module documentation for the rules.
 pub fn size(req: &SizeRequest, limits: &Limits) -> Result<SizeResult, ModelError> {
+    size_while(req, limits, &|| true)
+}
+
+/// Like [`size`], but gives up with [`ModelError::Cancelled`] before the next design
+/// evaluation once `keep_going` answers false (a caller whose deadline has passed).
+pub fn size_while(
+    req: &SizeRequest,
+    limits: &Limits,
+    keep_going: &(dyn Fn() -> bool + Sync),
+) -> Result<SizeResult, ModelError> {
     designpath::check_path(&req.path, "vary.path")?;
     let integer = designpath::is_integer_path(&req.path);
     if !(req.min.is_finite() && req.max.is_finite()) || req.min >= req.max {
@@ -283,6 +297,7 @@ pub fn size(req: &SizeRequest, limits: &Limits) -> Result<SizeResult, ModelError
     }
     let mut search = Search {
         req,
+        keep_going,
         limits,
         bounds,
         metrics,
@@ -322,6 +337,7 @@ pub fn size(req: &SizeRequest, limits: &Limits) -> Result<SizeResult, ModelError
     for &x in &xs {
         match search.evaluate(x) {
             Ok(e) => evals.push((x, Some(e))),
+            Err(ModelError::Cancelled) => return Err(ModelError::Cancelled),
             Err(e) => {
                 errors.push(format!("{x}: {e}"));
                 evals.push((x, None));
@@ -388,6 +404,7 @@ pub fn size(req: &SizeRequest, limits: &Limits) -> Result<SizeResult, ModelError
                 }
                 match search.evaluate(mid) {
                     Ok(e) if e.slack >= 0.0 => b = mid,
+                    Err(ModelError::Cancelled) => return Err(ModelError::Cancelled),
                     _ => a = mid,
                 }
             }

@@ -292,3 +292,11 @@ fn a_stopped_sweep_skips_the_points_not_yet_started() {
         "{n} points delivered"
     );
 }
+
+#[test]
+fn a_stopped_sizing_reports_cancelled() {
+    use ringdrag_model::ModelError;
+    use ringdrag_model::sizing::size_while;
+    let r = size_while(&wall_request(None), &Limits::default(), &|| false);
+    assert_eq!(r.err(), Some(ModelError::Cancelled));
+}
