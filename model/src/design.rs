@@ -8,7 +8,7 @@
 
 use crate::MU0;
 use crate::caution::{Caution, CautionKind};
-use crate::error::{FieldError, ModelError};
+use crate::error::{FieldError, ModelError, show};
 use crate::materials::{self, LookupError};
 use crate::spec::{DesignSpec, Polarity};
 
@@ -331,7 +331,8 @@ impl Design {
                 "magnets.outer_diameter_m",
                 format!(
                     "magnet ({} m) must be narrower than the tube bore tube.inner_diameter_m ({} m)",
-                    m.outer_diameter_m, t.inner_diameter_m
+                    show(m.outer_diameter_m),
+                    show(t.inner_diameter_m)
                 ),
             ));
         }

@@ -61,6 +61,17 @@ pub enum ModelError {
     Cancelled,
 }
 
+/// A number for a message: plain decimals for ordinary magnitudes, scientific notation for
+/// very small or very large ones (Rust's `Display` never uses an exponent, so 5e-324 would
+/// print as 324 digits).
+pub fn show(v: f64) -> String {
+    if v == 0.0 || (1e-4..1e7).contains(&v.abs()) || !v.is_finite() {
+        format!("{v}")
+    } else {
+        format!("{v:e}")
+    }
+}
+
 fn summarise(errors: &[FieldError]) -> String {
     errors
         .iter()

@@ -17,7 +17,7 @@
 use crate::caution::{Caution, CautionKind, push_unique};
 use crate::design::Design;
 use crate::designpath;
-use crate::error::ModelError;
+use crate::error::{ModelError, show};
 use crate::limits::Limits;
 use crate::metrics::{Metric, evaluate};
 use crate::report::{Discretisation, Fidelity, ModelInfo};
@@ -385,7 +385,10 @@ pub fn size_while(
         Some(0) => {
             cautions.push(Caution::new(
                 CautionKind::ModelLimit,
-                format!("The smallest value of the range, {lo}, already meets every target."),
+                format!(
+                    "The smallest value of the range, {}, already meets every target.",
+                    show(lo)
+                ),
             ));
             let e = search.evaluate(lo)?;
             (true, lo, e)
@@ -418,7 +421,12 @@ pub fn size_while(
             format!(
                 "No value of {} in [{}, {}] meets the targets with safety factor {}; the closest is {} \
                  (achieved safety factor {:.3}).",
-                req.path, req.min, req.max, req.safety_factor, x_final, eval_final.margin
+                req.path,
+                show(req.min),
+                show(req.max),
+                req.safety_factor,
+                show(x_final),
+                eval_final.margin
             ),
         ));
     }
