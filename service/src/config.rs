@@ -4,6 +4,8 @@
 //! The job caps map onto [`ringdrag_model::Limits`]; their defaults are the model's defaults,
 //! so an unconfigured service and the OpenAPI document (which states those defaults) agree.
 
+use crate::access::{ApiKeys, Origins};
+use axum::http::HeaderName;
 use clap::{Parser, ValueEnum};
 use ringdrag_model::Limits;
 use std::net::SocketAddr;
@@ -94,10 +96,104 @@ pub struct Config {
     #[arg(long, env = "RINGDRAG_SHUTDOWN_DELAY_S", default_value_t = 0)]
     pub shutdown_delay_s: u64,
 
+    /// API keys accepted as `Authorization: Bearer <key>` on `/v1/*`, comma-separated, each
+    /// at least 16 characters. Unset (and no key file): no key needed.
+    #[arg(long, env = "RINGDRAG_API_KEYS", value_parser = KeyListParser,
+        default_value = "", hide_default_value = true, hide_env_values = true)]
+    pub api_keys: ApiKeys,
+
+    /// File of API keys, one per line (`#` comments and blank lines skipped); read at start.
+    /// Together with `--api-keys`, both sets are accepted.
+    #[arg(long, env = "RINGDRAG_API_KEYS_FILE", value_parser = read_key_file)]
+    pub api_keys_file: Option<KeyFile>,
+
+    /// With API keys configured, require a key for `/metrics` too.
+    #[arg(long, env = "RINGDRAG_PROTECT_METRICS")]
+    pub protect_metrics: bool,
+
+    /// Browser origins allowed to call the service (CORS), comma-separated exact origins such
+    /// as `https://shop.example.com`. Unset: no cross-origin access.
+    #[arg(long, env = "RINGDRAG_CORS_ORIGINS", value_parser = Origins::parse,
+        default_value = "", hide_default_value = true)]
+    pub cors_origins: Origins,
+
+    /// Requests a minute allowed per API key (per client address when keys are off) on
+    /// `/v1/*`; 429 with `Retry-After` above it. Unset or 0: no limit.
+    #[arg(long, env = "RINGDRAG_RATE_LIMIT_PER_MINUTE", default_value_t = 0)]
+    pub rate_limit_per_minute: u32,
+
+    /// Requests a client may send at once before the rate applies (default: the per-minute
+    /// rate).
+    #[arg(long, env = "RINGDRAG_RATE_LIMIT_BURST")]
+    pub rate_limit_burst: Option<u32>,
+
+    /// Header naming the client address for per-address rate limits behind a proxy (e.g.
+    /// `x-forwarded-for`; its last entry is used). Unset: the connection's peer address.
+    #[arg(long, env = "RINGDRAG_CLIENT_IP_HEADER")]
+    pub client_ip_header: Option<HeaderName>,
+
+    /// Most answers kept in the response cache of identical force-curve and stroke requests;
+    /// 0 turns the cache off.
+    #[arg(long, env = "RINGDRAG_CACHE_ENTRIES", default_value_t = DEFAULT_CACHE_ENTRIES)]
+    pub cache_entries: u64,
+
+    /// Most bytes of answers kept in the response cache.
+    #[arg(long, env = "RINGDRAG_CACHE_MAX_BYTES", default_value_t = DEFAULT_CACHE_MAX_BYTES)]
+    pub cache_max_bytes: u64,
+
     /// Print the OpenAPI document to standard output and exit (regenerates
     /// `openapi/openapi.json`).
     #[arg(long)]
     pub print_openapi: bool,
+}
+
+/// Default number of cached answers.
+pub const DEFAULT_CACHE_ENTRIES: u64 = 1024;
+
+/// Default byte budget of the response cache (64 MiB).
+pub const DEFAULT_CACHE_MAX_BYTES: u64 = 64 << 20;
+
+/// A key file: its path and the keys read from it.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct KeyFile {
+    /// Where the keys were read from.
+    pub path: std::path::PathBuf,
+    /// The keys.
+    pub keys: ApiKeys,
+}
+
+/// Parses `--api-keys` without ever echoing the value: clap's own error for a bad value
+/// quotes it, and the value holds secrets that must not reach the logs.
+#[derive(Debug, Clone, Copy)]
+struct KeyListParser;
+
+impl clap::builder::TypedValueParser for KeyListParser {
+    type Value = ApiKeys;
+
+    fn parse_ref(
+        &self,
+        cmd: &clap::Command,
+        _arg: Option<&clap::Arg>,
+        value: &std::ffi::OsStr,
+    ) -> Result<ApiKeys, clap::Error> {
+        let refuse = |why: String| {
+            clap::Error::raw(
+                clap::error::ErrorKind::ValueValidation,
+                format!("--api-keys (RINGDRAG_API_KEYS): {why}\n"),
+            )
+            .with_cmd(cmd)
+        };
+        let text = value
+            .to_str()
+            .ok_or_else(|| refuse("the keys are not valid UTF-8".to_string()))?;
+        ApiKeys::from_list(text).map_err(refuse)
+    }
+}
+
+fn read_key_file(text: &str) -> Result<KeyFile, String> {
+    let path = std::path::PathBuf::from(text);
+    let keys = ApiKeys::from_file(&path)?;
+    Ok(KeyFile { path, keys })
 }
 
 fn positive_seconds(text: &str) -> Result<f64, String> {
@@ -126,6 +222,15 @@ impl Config {
             max_samples: Limits::default().max_samples,
             max_sweep_points: Limits::default().max_sweep_points,
             shutdown_delay_s: 0,
+            api_keys: ApiKeys::default(),
+            api_keys_file: None,
+            protect_metrics: false,
+            cors_origins: Origins::default(),
+            rate_limit_per_minute: 0,
+            rate_limit_burst: None,
+            client_ip_header: None,
+            cache_entries: DEFAULT_CACHE_ENTRIES,
+            cache_max_bytes: DEFAULT_CACHE_MAX_BYTES,
             print_openapi: false,
         }
     }
@@ -160,6 +265,14 @@ impl Config {
     pub fn request_timeout(&self) -> Duration {
         Duration::from_secs(self.request_timeout_s)
     }
+
+    /// Every accepted API key (`--api-keys` and `--api-keys-file` together); empty: keys off.
+    pub fn all_api_keys(&self) -> ApiKeys {
+        match &self.api_keys_file {
+            Some(file) => self.api_keys.clone().merged(&file.keys),
+            None => self.api_keys.clone(),
+        }
+    }
 }
 
 #[cfg(test)]
@@ -181,6 +294,22 @@ mod tests {
         assert_eq!(parsed.request_timeout_s, d.request_timeout_s);
         assert_eq!(parsed.max_body_bytes, 1_048_576);
         assert_eq!(parsed.limits(), Limits::default());
+    }
+
+    #[test]
+    fn a_refused_key_is_not_echoed() {
+        let secret = "0123456789abcdef0123456789abcdef,short-secret";
+        let Err(e) = Config::try_parse_from(["ringdrag", "--api-keys", secret]) else {
+            panic!("a short key must be refused")
+        };
+        let text = e.to_string();
+        assert!(text.contains("at least 16"), "{text}");
+        assert!(!text.contains("short-secret"), "{text}");
+        assert!(!text.contains("0123456789abcdef"), "{text}");
+        let Ok(parsed) = Config::try_parse_from(["ringdrag", "--api-keys", &secret[..32]]) else {
+            panic!("a good key parses")
+        };
+        assert_eq!(parsed.all_api_keys().len(), 1);
     }
 
     #[test]

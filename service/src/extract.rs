@@ -30,7 +30,7 @@ const DRAIN_TIME: Duration = Duration::from_secs(2);
 
 /// Whether a `Content-Type` value declares JSON: `application/json` or `application/*+json`,
 /// parameters such as `charset` allowed.
-fn is_json(content_type: &str) -> bool {
+pub(crate) fn is_json(content_type: &str) -> bool {
     let essence = content_type
         .split(';')
         .next()

@@ -1,7 +1,7 @@
 //! Running computations: off the async runtime, a bounded number at a time, within a deadline.
 //!
-//! Every computing endpoint (today the force curve and the stroke; later sweeps and sizing)
-//! hands its work to [`JobRunner::run`]. The runner
+//! Every computing endpoint hands its work to [`JobRunner::run`] (or, for answers that stream
+//! while the work computes, to [`JobRunner::start`]). The runner
 //! 1. waits at most the queue wait for one of a fixed number of slots (a semaphore), and answers
 //!    503 with `Retry-After` when none frees up: under load the service sheds work instead of
 //!    queueing without bound;
@@ -18,7 +18,7 @@
 use crate::problem::ApiError;
 use std::sync::Arc;
 use std::time::Duration;
-use tokio::sync::Semaphore;
+use tokio::sync::{OwnedSemaphorePermit, Semaphore};
 use tokio::time::Instant;
 
 /// Bounded, deadline-aware runner of blocking computations. Cheap to clone.
@@ -76,9 +76,81 @@ impl JobRunner {
         self.slots.available_permits()
     }
 
+    /// Longest time one request may take, waiting for a slot included.
+    pub fn timeout(&self) -> Duration {
+        self.timeout
+    }
+
     /// Suggested wait before a retry, whole seconds (at least 1).
     fn retry_after_s(&self) -> u64 {
         self.queue_wait.as_secs_f64().ceil().max(1.0) as u64
+    }
+
+    /// Waits at most the queue wait (and never longer than the request timeout) for a slot.
+    async fn acquire(&self, job: &'static str) -> Result<OwnedSemaphorePermit, ApiError> {
+        let _waiting = GaugeGuard::raise("ringdrag_jobs_waiting", job);
+        let wait = self.queue_wait.min(self.timeout);
+        match tokio::time::timeout(wait, Arc::clone(&self.slots).acquire_owned()).await {
+            Ok(Ok(permit)) => Ok(permit),
+            Ok(Err(_closed)) => {
+                count(job, "internal");
+                Err(ApiError::Internal("job slots closed".to_string()))
+            }
+            Err(_elapsed) => {
+                count(job, "overloaded");
+                Err(ApiError::Overloaded {
+                    retry_after_s: self.retry_after_s(),
+                })
+            }
+        }
+    }
+
+    /// Starts `work` on the blocking pool under the slot bound and returns as soon as it has a
+    /// slot, for answers that stream while the work computes (sweeps as NDJSON).
+    ///
+    /// Waiting for a slot is as in [`run`](Self::run): 503 when none frees up within the queue
+    /// wait. The slot stays taken until `work` returns, whether or not anyone still reads its
+    /// results; `work` itself must keep to the request deadline (see [`timeout`](Self::timeout))
+    /// for what it hands out. It returns its outcome label for `ringdrag_jobs_total`
+    /// (`ok`, `timeout`, `client_gone`...). A panic in `work` is logged and counted as
+    /// `internal`.
+    pub async fn start<F>(&self, job: &'static str, work: F) -> Result<(), ApiError>
+    where
+        F: FnOnce() -> &'static str + Send + 'static,
+    {
+        let permit = self.acquire(job).await?;
+        let span = tracing::Span::current();
+        let handle = tokio::task::spawn_blocking(move || {
+            let _entered = span.enter();
+            let _permit = permit;
+            let _in_flight = GaugeGuard::raise("ringdrag_jobs_in_flight", job);
+            let started = std::time::Instant::now();
+            let outcome = work();
+            let elapsed = started.elapsed();
+            metrics::histogram!("ringdrag_job_duration_seconds", "job" => job)
+                .record(elapsed.as_secs_f64());
+            tracing::debug!(
+                job,
+                outcome,
+                elapsed_ms = elapsed.as_millis() as u64,
+                "job finished"
+            );
+            outcome
+        });
+        tokio::spawn(async move {
+            match handle.await {
+                Ok(outcome) => count(job, outcome),
+                Err(join_error) => {
+                    count(job, "internal");
+                    tracing::error!(
+                        job,
+                        panicked = join_error.is_panic(),
+                        "streaming job failed"
+                    );
+                }
+            }
+        });
+        Ok(())
     }
 
     /// Runs `work` on the blocking pool under the slot bound and the request deadline.
@@ -91,23 +163,7 @@ impl JobRunner {
         T: Send + 'static,
     {
         let deadline = Instant::now() + self.timeout;
-        let permit = {
-            let _waiting = GaugeGuard::raise("ringdrag_jobs_waiting", job);
-            let wait = self.queue_wait.min(self.timeout);
-            match tokio::time::timeout(wait, Arc::clone(&self.slots).acquire_owned()).await {
-                Ok(Ok(permit)) => permit,
-                Ok(Err(_closed)) => {
-                    count(job, "internal");
-                    return Err(ApiError::Internal("job slots closed".to_string()));
-                }
-                Err(_elapsed) => {
-                    count(job, "overloaded");
-                    return Err(ApiError::Overloaded {
-                        retry_after_s: self.retry_after_s(),
-                    });
-                }
-            }
-        };
+        let permit = self.acquire(job).await?;
         let span = tracing::Span::current();
         let handle = tokio::task::spawn_blocking(move || {
             let _entered = span.enter();
@@ -193,6 +249,28 @@ mod tests {
         );
         assert_eq!(r.available(), 0, "abandoned work must hold its slot");
         tokio::time::sleep(Duration::from_millis(800)).await;
+        assert_eq!(r.available(), 1);
+    }
+
+    #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+    async fn a_started_job_holds_its_slot_until_it_ends() {
+        let r = JobRunner::new(1, Duration::from_millis(50), Duration::from_secs(5));
+        let started = std::time::Instant::now();
+        let result = r
+            .start("test", || {
+                std::thread::sleep(Duration::from_millis(300));
+                "ok"
+            })
+            .await;
+        assert_eq!(result, Ok(()));
+        assert!(
+            started.elapsed() < Duration::from_millis(200),
+            "start returns once the work runs"
+        );
+        assert_eq!(r.available(), 0);
+        let shed = r.start("test", || "ok").await;
+        assert_eq!(shed, Err(ApiError::Overloaded { retry_after_s: 1 }));
+        tokio::time::sleep(Duration::from_millis(500)).await;
         assert_eq!(r.available(), 1);
     }
 

@@ -10,12 +10,17 @@
 //! `main` only sets up logging and metrics, parses the configuration, binds, serves, and shuts
 //! down gracefully.
 
+pub mod access;
 pub mod api;
+pub mod cache;
 pub mod config;
 pub mod extract;
 pub mod jobs;
 pub mod middleware;
+pub mod negotiate;
+pub mod plot;
 pub mod problem;
+pub mod ratelimit;
 pub mod state;
 pub mod telemetry;
 
@@ -47,7 +52,9 @@ async fn method_not_allowed() -> ApiError {
 
 /// The OpenAPI 3.1 document of the service, generated from the routes and their types.
 pub fn openapi() -> utoipa::openapi::OpenApi {
-    api::api_router().into_openapi()
+    let mut document = api::api_router().into_openapi();
+    access::document(&mut document);
+    document
 }
 
 /// The OpenAPI document as served and as checked in at `openapi/openapi.json`: pretty-printed

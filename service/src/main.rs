@@ -59,6 +59,11 @@ async fn serve(config: Config) -> anyhow::Result<()> {
         job_slots = state.jobs.capacity(),
         request_timeout_s = config.request_timeout_s,
         max_body_bytes = config.max_body_bytes,
+        api_keys = config.all_api_keys().len(),
+        protect_metrics = config.protect_metrics,
+        cors_origins = config.cors_origins.0.len(),
+        rate_limit_per_minute = config.rate_limit_per_minute,
+        cache_entries = config.cache_entries,
         "serving"
     );
 
@@ -76,6 +81,8 @@ async fn serve(config: Config) -> anyhow::Result<()> {
         tracing::info!("no longer accepting; finishing in-flight requests");
         let _ = stop_tx.send(true);
     };
+    // Connection info gives the rate limiter the peer address of each request.
+    let app = app.into_make_service_with_connect_info::<std::net::SocketAddr>();
     let server = axum::serve(listener, app).with_graceful_shutdown(shutdown);
     // Requests still open this long after the signal are abandoned.
     let drain_deadline = config.request_timeout() + Duration::from_secs(5);

@@ -3,22 +3,35 @@
 //! 1. request id: keeps a client's `x-request-id` or makes a UUID, and returns it;
 //! 2. tracing: one span per request carrying the id, method and path; a log line per response;
 //! 3. HTTP metrics: counts and latency histograms by method, route template and status;
-//! 4. (slot for access control, CORS and rate limits: see [`apply`]);
-//! 5. request timeout: a backstop deadline answered as a problem document;
-//! 6. panic safety net: a panicking handler answers a problem 500 instead of dropping the
+//! 4. CORS, when origins are configured ([`crate::access`]): answers preflights, and marks
+//!    every answer (refusals included, so a browser can read a 401 or 429) for allowed origins;
+//! 5. API keys, when configured ([`crate::access`]): 401 on `/v1/*` without a valid key;
+//! 6. rate limits, when configured ([`crate::ratelimit`]): 429 on `/v1/*` past a client's
+//!    allowance;
+//! 7. response cache, unless turned off ([`crate::cache`]): repeated identical computing
+//!    requests answered from memory;
+//! 8. request timeout: a backstop deadline answered as a problem document;
+//! 9. panic safety net: a panicking handler answers a problem 500 instead of dropping the
 //!    connection.
 //!
 //! Metrics and tracing sit outside everything that can refuse a request, so that refusals
-//! (413, 415, 422, 429, 503) are counted and logged like any answer.
+//! (401, 413, 415, 422, 429, 503) are counted and logged like any answer. Keys come before the
+//! rate limit, so that an unauthenticated flood cannot use up a real client's allowance, and
+//! both before the cache, so that a cached answer is never served to a caller who could not
+//! have asked for it.
 
+use crate::access::{AccessPolicy, cors_layer, require_key};
+use crate::cache::{ResponseCache, serve_cached};
 use crate::config::Config;
 use crate::problem::ApiError;
+use crate::ratelimit::{RateLimiter, limit_rate};
 use axum::Router;
 use axum::extract::{MatchedPath, Request, State};
 use axum::http::{HeaderName, Method};
 use axum::middleware::{self as axum_mw, Next};
 use axum::response::{IntoResponse, Response};
 use std::any::Any;
+use std::sync::Arc;
 use std::time::{Duration, Instant};
 use tower::ServiceBuilder;
 use tower_http::catch_panic::CatchPanicLayer;
@@ -37,11 +50,38 @@ const BACKSTOP_MARGIN: Duration = Duration::from_secs(2);
 pub fn apply(routes: Router, config: &Config) -> Router {
     let timeout = config.request_timeout() + BACKSTOP_MARGIN;
     let inner = ServiceBuilder::new()
-        // Slot for a later issue: access control (API keys), CORS and rate limits belong
-        // here, inside metrics and tracing (so that their refusals are counted and logged)
-        // and outside the timeout.
         .layer(axum_mw::from_fn_with_state(timeout, enforce_timeout))
         .layer(CatchPanicLayer::custom(panic_response));
+    // Each `layer` call below wraps the previous ones: the last applied is the outermost.
+    let mut routes = routes.layer(inner);
+    if let Some(cache) = ResponseCache::new(
+        config.cache_entries,
+        config.cache_max_bytes,
+        config.max_body_bytes,
+    ) {
+        routes = routes.layer(axum_mw::from_fn_with_state(cache, serve_cached));
+    }
+    if config.rate_limit_per_minute > 0 {
+        let limiter = RateLimiter::new(
+            config.rate_limit_per_minute,
+            config
+                .rate_limit_burst
+                .unwrap_or(config.rate_limit_per_minute),
+            config.client_ip_header.clone(),
+        );
+        routes = routes.layer(axum_mw::from_fn_with_state(limiter, limit_rate));
+    }
+    let keys = config.all_api_keys();
+    if !keys.is_empty() {
+        let policy = AccessPolicy {
+            keys: Arc::new(keys),
+            protect_metrics: config.protect_metrics,
+        };
+        routes = routes.layer(axum_mw::from_fn_with_state(policy, require_key));
+    }
+    if let Some(cors) = cors_layer(&config.cors_origins) {
+        routes = routes.layer(cors);
+    }
     let outer = ServiceBuilder::new()
         .layer(SetRequestIdLayer::new(REQUEST_ID, MakeRequestUuid))
         .layer(PropagateRequestIdLayer::new(REQUEST_ID))
@@ -51,7 +91,7 @@ pub fn apply(routes: Router, config: &Config) -> Router {
                 .on_response(DefaultOnResponse::new().level(Level::INFO)),
         )
         .layer(axum_mw::from_fn(track_http_metrics));
-    routes.layer(inner).layer(outer)
+    routes.layer(outer)
 }
 
 fn request_span(req: &Request) -> tracing::Span {

@@ -8,8 +8,11 @@
 //! ([`ModelError`]) are mapped here and nowhere else.
 //!
 //! Status policy: malformed JSON 400, wrong media type 415, body too large 413, unknown route
-//! 404, wrong method 405, invalid input or a job above the service limits 422, overload or a
-//! job that outlives the request timeout 503 with `Retry-After`. A 500 is reserved for defects
+//! 404, wrong method 405, an `Accept` header that allows none of a route's representations
+//! 406, invalid input or a job above the service limits 422, overload or a
+//! job that outlives the request timeout 503 with `Retry-After`; when access control is
+//! configured, a missing or wrong API key 401 with `WWW-Authenticate`, and a client over its
+//! rate limit 429 with `Retry-After`. A 500 is reserved for defects
 //! of the service itself (a panic caught by the safety net); no input is meant to produce one.
 
 use axum::http::{HeaderValue, StatusCode, header};
@@ -38,10 +41,10 @@ pub struct FieldProblem {
 /// An RFC 9457 problem document, the body of every error response.
 #[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
 pub struct Problem {
-    /// URI identifying the problem type: `about:blank` for plain HTTP errors (404, 405, 413,
-    /// 415), otherwise `urn:ringdrag:problem:<name>` (`malformed-json`, `invalid-input`,
+    /// URI identifying the problem type: `about:blank` for plain HTTP errors (404, 405, 406,
+    /// 413, 415), otherwise `urn:ringdrag:problem:<name>` (`malformed-json`, `invalid-input`,
     /// `job-too-large`, `not-computable`, `overloaded`, `timeout`, `shutting-down`,
-    /// `internal`).
+    /// `unauthorized`, `rate-limited`, `internal`).
     #[serde(rename = "type")]
     pub problem_type: String,
     /// Short, human-readable summary of the problem type.
@@ -88,6 +91,12 @@ pub enum ApiError {
     /// The route exists but not for this method.
     #[error("method not allowed")]
     MethodNotAllowed,
+    /// The `Accept` header allows none of the representations the route can answer with.
+    #[error("not acceptable")]
+    NotAcceptable {
+        /// Media types the route can answer with.
+        offered: Vec<&'static str>,
+    },
     /// Every job slot stayed busy for the whole queue wait.
     #[error("overloaded")]
     Overloaded {
@@ -105,6 +114,18 @@ pub enum ApiError {
     /// The service is shutting down and takes no new work.
     #[error("shutting down")]
     ShuttingDown,
+    /// A guarded route was called without a valid API key.
+    #[error("unauthorized")]
+    Unauthorized {
+        /// Whether a key was presented but is not valid (otherwise none was presented).
+        wrong_key: bool,
+    },
+    /// The client used up its rate limit.
+    #[error("rate limited")]
+    RateLimited {
+        /// Seconds until the client may send again.
+        retry_after_s: u64,
+    },
     /// A defect of the service (a caught panic, a lost worker). Never caused by valid or
     /// invalid input by design.
     #[error("internal error: {0}")]
@@ -131,9 +152,12 @@ impl ApiError {
             }
             Self::NotFound(_) => StatusCode::NOT_FOUND,
             Self::MethodNotAllowed => StatusCode::METHOD_NOT_ALLOWED,
+            Self::NotAcceptable { .. } => StatusCode::NOT_ACCEPTABLE,
             Self::Overloaded { .. } | Self::Timeout { .. } | Self::ShuttingDown => {
                 StatusCode::SERVICE_UNAVAILABLE
             }
+            Self::Unauthorized { .. } => StatusCode::UNAUTHORIZED,
+            Self::RateLimited { .. } => StatusCode::TOO_MANY_REQUESTS,
             Self::Internal(_) => StatusCode::INTERNAL_SERVER_ERROR,
         }
     }
@@ -190,6 +214,16 @@ impl ApiError {
                     .to_string(),
                 None,
             ),
+            Self::NotAcceptable { offered } => (
+                None,
+                "Not Acceptable",
+                format!(
+                    "The Accept header allows none of the representations of this resource; it \
+                     can answer with {}.",
+                    offered.join(", ")
+                ),
+                None,
+            ),
             Self::Overloaded { retry_after_s } => (
                 Some("overloaded"),
                 "Service overloaded",
@@ -213,6 +247,23 @@ impl ApiError {
                 "Shutting down",
                 "The service is shutting down and takes no new work; retry on another instance."
                     .to_string(),
+                None,
+            ),
+            Self::Unauthorized { wrong_key } => (
+                Some("unauthorized"),
+                "Unauthorized",
+                if *wrong_key {
+                    "The API key is not valid for this service.".to_string()
+                } else {
+                    "This route needs an API key: send it as `Authorization: Bearer <key>`."
+                        .to_string()
+                },
+                None,
+            ),
+            Self::RateLimited { retry_after_s } => (
+                Some("rate-limited"),
+                "Too many requests",
+                format!("This client used up its request allowance; retry in {retry_after_s} s."),
                 None,
             ),
             Self::Internal(_) => (
@@ -272,8 +323,16 @@ impl IntoResponse for ApiError {
         let headers = response.headers_mut();
         headers.insert(header::CONTENT_TYPE, HeaderValue::from_static(PROBLEM_JSON));
         match self {
-            Self::Overloaded { retry_after_s } | Self::Timeout { retry_after_s, .. } => {
+            Self::Overloaded { retry_after_s }
+            | Self::Timeout { retry_after_s, .. }
+            | Self::RateLimited { retry_after_s } => {
                 headers.insert(header::RETRY_AFTER, HeaderValue::from(retry_after_s));
+            }
+            Self::Unauthorized { wrong_key } => {
+                headers.insert(
+                    header::WWW_AUTHENTICATE,
+                    crate::access::challenge(wrong_key),
+                );
             }
             Self::ShuttingDown => {
                 headers.insert(header::RETRY_AFTER, HeaderValue::from(1u64));
@@ -383,6 +442,16 @@ mod tests {
             ApiError::Overloaded { retry_after_s: 1 }.status().as_u16(),
             503
         );
+        assert_eq!(
+            ApiError::Unauthorized { wrong_key: false }
+                .status()
+                .as_u16(),
+            401
+        );
+        assert_eq!(
+            ApiError::RateLimited { retry_after_s: 1 }.status().as_u16(),
+            429
+        );
         let p = ApiError::from(ModelError::field("tube.material", "unknown")).problem();
         assert_eq!(p.problem_type, "urn:ringdrag:problem:invalid-input");
         assert_eq!(p.status, 422);
@@ -402,5 +471,32 @@ mod tests {
             r.headers().get(header::CONTENT_TYPE),
             Some(&HeaderValue::from_static(PROBLEM_JSON))
         );
+    }
+
+    #[test]
+    fn refusals_carry_their_headers() {
+        // source: RFC 6750 (bearer tokens), section 3: a 401 carries a Bearer challenge, with
+        // error="invalid_token" when the token presented is not valid.
+        let missing = ApiError::Unauthorized { wrong_key: false }.into_response();
+        assert_eq!(
+            missing.headers().get(header::WWW_AUTHENTICATE),
+            Some(&HeaderValue::from_static("Bearer realm=\"ringdrag\""))
+        );
+        let wrong = ApiError::Unauthorized { wrong_key: true }.into_response();
+        let challenge = wrong
+            .headers()
+            .get(header::WWW_AUTHENTICATE)
+            .and_then(|v| v.to_str().ok())
+            .unwrap_or_default();
+        assert!(challenge.starts_with("Bearer realm=\"ringdrag\", error=\"invalid_token\""));
+        // source: RFC 6585 (additional HTTP status codes), section 4: 429 may carry Retry-After.
+        let limited = ApiError::RateLimited { retry_after_s: 7 }.into_response();
+        assert_eq!(limited.status(), StatusCode::TOO_MANY_REQUESTS);
+        assert_eq!(
+            limited.headers().get(header::RETRY_AFTER),
+            Some(&HeaderValue::from(7u64))
+        );
+        let p = ApiError::RateLimited { retry_after_s: 7 }.problem();
+        assert_eq!(p.problem_type, "urn:ringdrag:problem:rate-limited");
     }
 }

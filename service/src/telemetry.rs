@@ -63,7 +63,7 @@ pub fn install_metrics() -> anyhow::Result<PrometheusHandle> {
     );
     metrics::describe_counter!(
         "ringdrag_jobs_total",
-        "Computations by job and outcome (ok, rejected, overloaded, timeout, internal)."
+        "Computations by job and outcome (ok, rejected, overloaded, timeout, client_gone, internal)."
     );
     metrics::describe_histogram!(
         "ringdrag_job_duration_seconds",

@@ -144,16 +144,24 @@ async fn overload_is_shed_with_503_and_retry_after() {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn a_job_past_the_request_timeout_is_503() {
-    // A larger speed cap makes one force curve take several seconds.
+    // A larger speed cap (and body limit) makes one force curve take several seconds: 300,000
+    // speeds took about 4 s here, well past the 1 s timeout.
     let app = spawn_app_with(
-        &["--request-timeout-s", "1", "--max-speeds", "100000"],
+        &[
+            "--request-timeout-s",
+            "1",
+            "--max-speeds",
+            "1000000",
+            "--max-body-bytes",
+            "8000000",
+        ],
         &[],
         Logs::Quiet,
     )
     .await;
     let started = Instant::now();
     let response = app
-        .post_json("/v1/force-curve", &heavy_force_curve(40_000))
+        .post_json("/v1/force-curve", &heavy_force_curve(300_000))
         .await;
     let elapsed = started.elapsed();
     assert!(response.headers().get("retry-after").is_some());

@@ -81,3 +81,27 @@ async fn the_invalid_example_names_its_faults() {
         assert!(paths.iter().any(|p| p == named), "{named} not in {paths:?}");
     }
 }
+
+#[tokio::test]
+async fn the_sweep_examples_compute() {
+    let app = spawn_app().await;
+    for (name, points) in [
+        ("sweep-wall-thickness.json", 8),
+        ("sweep-wall-and-payload.json", 24),
+    ] {
+        let body = app.post_ok("/v1/sweep", &example(name)).await;
+        let got = body["points"].as_array().map_or(0, Vec::len);
+        assert_eq!(got, points, "{name}");
+        assert_eq!(body["failed_points"], 0, "{name}: {body}");
+    }
+}
+
+#[tokio::test]
+async fn the_sizing_example_finds_a_wall() {
+    let app = spawn_app().await;
+    let body = app
+        .post_ok("/v1/size", &example("size-wall-for-speed-limit.json"))
+        .await;
+    assert_eq!(body["feasible"], true, "{body}");
+    assert!(body["tolerance_bands"]["bands"]["terminal_speed_m_per_s"].is_object());
+}

@@ -3,6 +3,7 @@
 //!
 //! Run with `cargo test --release -p ringdrag-service --test api`.
 
+mod access;
 mod concurrency;
 mod errors;
 mod examples;
@@ -11,4 +12,9 @@ mod helpers;
 mod materials;
 mod openapi;
 mod operations;
+mod plots;
+mod shedding;
 mod simulate;
+mod size;
+mod sweep;
+mod tolerances;

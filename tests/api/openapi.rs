@@ -69,7 +69,9 @@ async fn the_document_describes_every_route_response_and_field() {
             "/readyz",
             "/v1/force-curve",
             "/v1/materials",
-            "/v1/simulate"
+            "/v1/simulate",
+            "/v1/size",
+            "/v1/sweep"
         ]
     );
     for (path, item) in paths {
@@ -107,6 +109,13 @@ async fn the_document_describes_every_route_response_and_field() {
     for name in [
         "ForceCurveRequest",
         "SimulateRequest",
+        "SweepRequest",
+        "SizeRequest",
+        "ValuesAxis",
+        "RangeAxis",
+        "SizeVary",
+        "SizeTarget",
+        "Tolerances",
         "DesignSpec",
         "MagnetSpec",
         "TubeSpec",
@@ -121,6 +130,29 @@ async fn the_document_describes_every_route_response_and_field() {
     // Problems are documented with their media type.
     let unprocessable = &paths["/v1/simulate"]["post"]["responses"]["422"];
     assert!(unprocessable["content"]["application/problem+json"].is_object());
+    // The alternative representations are documented beside JSON, with 406 for the rest.
+    for (path, media) in [
+        (
+            "/v1/force-curve",
+            &["application/json", "image/svg+xml"][..],
+        ),
+        ("/v1/simulate", &["application/json", "image/svg+xml"][..]),
+        (
+            "/v1/sweep",
+            &["application/json", "application/x-ndjson", "image/svg+xml"][..],
+        ),
+        ("/v1/size", &["application/json"][..]),
+    ] {
+        let responses = &paths[path]["post"]["responses"];
+        let content = responses["200"]["content"].as_object().expect("content");
+        let mut listed: Vec<&str> = content.keys().map(String::as_str).collect();
+        listed.sort_unstable();
+        assert_eq!(listed, media, "{path}");
+        assert!(
+            responses["406"]["content"]["application/problem+json"].is_object(),
+            "{path} documents 406"
+        );
+    }
 }
 
 #[tokio::test]

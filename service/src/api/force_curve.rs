@@ -3,15 +3,23 @@
 //! The request is validated here, once (the design by the model's `Design::from_spec`, the
 //! speeds and the resolution by this module, the job size against the service limits); the
 //! computation runs in the job runner; the result becomes the response record of the HTTP
-//! contract.
+//! contract, as JSON or, for `Accept: image/svg+xml`, as a plot ([`crate::plot`]). With
+//! `tolerances`, the response also carries worst-case bands of the headline numbers over the
+//! tolerance corners (`ringdrag_model::tolerance::bands`, at the model's default resolution).
 
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
 use crate::extract::ApiJson;
+use crate::negotiate::{self, Media};
+use crate::plot;
 use crate::problem::{ApiError, FieldProblem, Problem};
 use crate::state::AppState;
 use axum::Json;
 use axum::extract::State;
-use ringdrag_model::{Design, DesignSpec, ForceCurve, ForceCurveOptions, Limits};
+use axum::http::HeaderMap;
+use axum::response::{IntoResponse, Response};
+use ringdrag_model::metrics::Metric;
+use ringdrag_model::tolerance::{self, ToleranceBands, Tolerances};
+use ringdrag_model::{Design, DesignSpec, ForceCurve, ForceCurveOptions, Limits, StrokeOptions};
 use serde::{Deserialize, Serialize};
 use std::sync::Arc;
 use utoipa::ToSchema;
@@ -39,7 +47,19 @@ pub struct ForceCurveRequest {
     /// Resolution override; omit to let the model choose.
     #[serde(default)]
     pub resolution: ForceCurveResolution,
+    /// Manufacturing tolerances; when given, the response carries `tolerance_bands`.
+    #[serde(default)]
+    #[schema(value_type = Tolerances)]
+    pub tolerances: Option<Tolerances>,
 }
+
+/// Metrics banded when a force-curve request gives tolerances.
+const BANDED_METRICS: [Metric; 4] = [
+    Metric::Damping,
+    Metric::PeakForce,
+    Metric::CriticalSpeed,
+    Metric::TerminalSpeed,
+];
 
 /// Resolution override of a force curve.
 #[derive(Debug, Clone, Default, Deserialize, ToSchema)]
@@ -138,6 +158,17 @@ impl ForceCurveRequest {
             limits,
             &mut errors,
         );
+        if let Some(t) = &self.tolerances
+            && let Err(e) = t.check("tolerances")
+        {
+            match ApiError::from(e) {
+                ApiError::Invalid(found) => errors.extend(found),
+                other => errors.push(FieldProblem {
+                    path: "tolerances".into(),
+                    message: other.to_string(),
+                }),
+            }
+        }
         if !errors.is_empty() {
             return Err(ApiError::Invalid(errors));
         }
@@ -203,6 +234,12 @@ pub struct ForceCurveResponse {
     pub caution_details: Vec<CautionDetail>,
     /// Method, fidelity and discretisation used.
     pub model: ModelBlock,
+    /// Worst-case bands of damping, peak force, critical speed and terminal speed over every
+    /// corner of the tolerances (each tolerance at its low or high end), at the model's
+    /// default resolution; present when `tolerances` were given.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(value_type = ToleranceBands)]
+    pub tolerance_bands: Option<ToleranceBands>,
 }
 
 impl ForceCurveResponse {
@@ -237,6 +274,7 @@ impl ForceCurveResponse {
             cautions,
             caution_details,
             model: ModelBlock::from_model(curve.model, &mut check),
+            tolerance_bands: None,
         };
         check.finish(response)
     }
@@ -254,10 +292,19 @@ impl ForceCurveResponse {
         description = "The design and, optionally, the speeds and the resolution."
     ),
     responses(
-        (status = 200, description = "The force-speed curve and the numbers derived from it.",
-            body = ForceCurveResponse),
+        (status = 200, description = "The force-speed curve and the numbers derived from it: \
+            as `application/json` (default) the response record; as `image/svg+xml` a plot of \
+            braking force against speed on logarithmic axes, with the driving force of \
+            the load and the terminal and critical speeds marked (zeros, and values more than \
+            twelve decades below the largest, are not drawn).",
+            content(
+                (ForceCurveResponse = "application/json"),
+                (String = "image/svg+xml")
+            )),
         (status = 400, description = "The body is not well-formed JSON.", body = Problem,
             content_type = "application/problem+json"),
+        (status = 406, description = "The Accept header allows neither application/json nor \
+            image/svg+xml.", body = Problem, content_type = "application/problem+json"),
         (status = 413, description = "The body exceeds the service's size limit.", body = Problem,
             content_type = "application/problem+json"),
         (status = 415, description = "The body is not declared as application/json.",
@@ -272,15 +319,46 @@ impl ForceCurveResponse {
 )]
 pub async fn compute_force_curve(
     State(state): State<AppState>,
+    headers: HeaderMap,
     ApiJson(request): ApiJson<ForceCurveRequest>,
-) -> Result<Json<ForceCurveResponse>, ApiError> {
+) -> Result<Response, ApiError> {
+    let media = negotiate::choose(&headers, &[Media::Json, Media::Svg])?;
+    if media == Media::Svg
+        && let Some(speeds) = &request.speeds_m_per_s
+        && !speeds.iter().any(|v| *v > 0.0)
+    {
+        return Err(ApiError::invalid(
+            "speeds_m_per_s",
+            "the plot draws speed on a logarithmic axis: give at least one speed above 0",
+        ));
+    }
+    let spec = request.design.clone();
+    let tolerances = request.tolerances.clone();
     let (design, options) = request.validate(&state.limits)?;
     let limits = Arc::clone(&state.limits);
-    let curve = state
+    // The answer is built and, for a plot, drawn inside the job: CPU work stays off the async
+    // workers and within the job's slot and deadline.
+    state
         .jobs
         .run("force_curve", move || {
-            ringdrag_model::force_curve(&design, &options, &limits).map_err(ApiError::from)
+            let curve = ringdrag_model::force_curve(&design, &options, &limits)?;
+            let mut response = ForceCurveResponse::from_model(curve)?;
+            if let Some(t) = &tolerances {
+                response.tolerance_bands = Some(tolerance::bands(
+                    &spec,
+                    t,
+                    &BANDED_METRICS,
+                    &StrokeOptions::default(),
+                    &limits,
+                )?);
+            }
+            match media {
+                Media::Svg => Ok(negotiate::respond(
+                    Media::Svg,
+                    plot::force_curve_svg(&response)?,
+                )),
+                _ => Ok(Json(response).into_response()),
+            }
         })
-        .await?;
-    ForceCurveResponse::from_model(curve).map(Json)
+        .await
 }

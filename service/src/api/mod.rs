@@ -7,6 +7,8 @@ pub mod materials;
 pub mod ops;
 pub mod report;
 pub mod simulate;
+pub mod size;
+pub mod sweep;
 
 use crate::problem::{FieldProblem, Problem};
 use crate::state::AppState;
@@ -20,7 +22,9 @@ use utoipa_axum::routes;
     info(
         title = "ringdrag",
         description = "Eddy-current braking of permanent-magnet stacks moving through non-ferrous \
-            conducting tubes: steady force-speed curves and stroke simulations. JSON in and out, \
+            conducting tubes: steady force-speed curves, stroke simulations, sweeps over design \
+            fields and inverse sizing with a safety factor. JSON in and out (force curves, \
+            strokes and sweeps also as SVG plots, sweeps also as a stream of JSON lines), \
             SI units, every dimensional field carries its unit in its name. Errors are RFC 9457 \
             problem documents (application/problem+json); validation errors name each field by \
             its dotted path in the request body. Results are engineering estimates from an \
@@ -42,6 +46,8 @@ pub fn api_router() -> OpenApiRouter<AppState> {
         .routes(routes!(materials::list_materials))
         .routes(routes!(force_curve::compute_force_curve))
         .routes(routes!(simulate::simulate_stroke))
+        .routes(routes!(sweep::sweep_design))
+        .routes(routes!(size::size_design))
         .routes(routes!(health::healthz))
         .routes(routes!(health::readyz))
         .routes(routes!(ops::metrics))

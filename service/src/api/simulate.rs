@@ -3,15 +3,21 @@
 //! The request is validated here, once (the design by the model, the start state, time,
 //! samples and resolution by this module, the simulated time and samples against the service
 //! limits); the model checks the sizes that only it can know (rings, steps) against the same
-//! limits and names the field that drives them.
+//! limits and names the field that drives them. The answer is JSON or, for
+//! `Accept: image/svg+xml`, a two-panel plot of speed and braking force against time
+//! ([`crate::plot::stroke_svg`]).
 
 use crate::api::force_curve::{check_design, check_radial_layers};
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
 use crate::extract::ApiJson;
+use crate::negotiate::{self, Media};
+use crate::plot;
 use crate::problem::{ApiError, FieldProblem, Problem};
 use crate::state::AppState;
 use axum::Json;
 use axum::extract::State;
+use axum::http::HeaderMap;
+use axum::response::{IntoResponse, Response};
 use ringdrag_model::report::Fidelity;
 use ringdrag_model::{Design, DesignSpec, Limits, Stroke, StrokeEnd, StrokeOptions};
 use serde::{Deserialize, Serialize};
@@ -106,31 +112,63 @@ fn within(
     value
 }
 
+/// Checks a stroke's start state and simulated time, the fields that `/v1/simulate`,
+/// `/v1/sweep` and `/v1/size` share under the same names: invalid values go to `errors`, a
+/// time above the service limit to `too_large`.
+pub(crate) fn check_stroke_setup(
+    start: &StartState,
+    max_time_s: f64,
+    limits: &Limits,
+    errors: &mut Vec<FieldProblem>,
+    too_large: &mut Vec<FieldProblem>,
+) {
+    let p = start.position_m;
+    within(
+        errors,
+        "start.position_m",
+        p,
+        p.abs() <= MAX_START_POSITION_M,
+        || format!("must be between -{MAX_START_POSITION_M} and {MAX_START_POSITION_M} m"),
+    );
+    let v = start.speed_m_per_s;
+    within(
+        errors,
+        "start.speed_m_per_s",
+        v,
+        (0.0..=MAX_START_SPEED_M_PER_S).contains(&v),
+        || format!("must be between 0 and {MAX_START_SPEED_M_PER_S} m/s"),
+    );
+    let t = max_time_s;
+    within(errors, "max_time_s", t, t > 0.0, || {
+        "must be greater than 0 s".to_string()
+    });
+    if t.is_finite() && t > limits.max_time_s {
+        too_large.push(FieldProblem {
+            path: "max_time_s".into(),
+            message: format!(
+                "{t} s of simulated time requested, above the service limit of {} s",
+                limits.max_time_s
+            ),
+        });
+    }
+}
+
 impl SimulateRequest {
     /// The validated design and options, or every problem found.
     pub fn validate(self, limits: &Limits) -> Result<(Design, StrokeOptions), ApiError> {
         let mut errors = Vec::new();
+        let mut too_large = Vec::new();
         let design = check_design(&self.design, &mut errors);
+        check_stroke_setup(
+            &self.start,
+            self.max_time_s,
+            limits,
+            &mut errors,
+            &mut too_large,
+        );
         let p = self.start.position_m;
-        within(
-            &mut errors,
-            "start.position_m",
-            p,
-            p.abs() <= MAX_START_POSITION_M,
-            || format!("must be between -{MAX_START_POSITION_M} and {MAX_START_POSITION_M} m"),
-        );
         let v = self.start.speed_m_per_s;
-        within(
-            &mut errors,
-            "start.speed_m_per_s",
-            v,
-            (0.0..=MAX_START_SPEED_M_PER_S).contains(&v),
-            || format!("must be between 0 and {MAX_START_SPEED_M_PER_S} m/s"),
-        );
         let t = self.max_time_s;
-        within(&mut errors, "max_time_s", t, t > 0.0, || {
-            "must be greater than 0 s".to_string()
-        });
         if self.samples < 2 {
             errors.push(FieldProblem {
                 path: "samples".into(),
@@ -155,16 +193,6 @@ impl SimulateRequest {
         );
         if !errors.is_empty() {
             return Err(ApiError::Invalid(errors));
-        }
-        let mut too_large = Vec::new();
-        if t > limits.max_time_s {
-            too_large.push(FieldProblem {
-                path: "max_time_s".into(),
-                message: format!(
-                    "{t} s of simulated time requested, above the service limit of {} s",
-                    limits.max_time_s
-                ),
-            });
         }
         if self.samples as usize > limits.max_samples {
             too_large.push(FieldProblem {
@@ -324,10 +352,18 @@ impl SimulateResponse {
             of samples and, optionally, the resolution."
     ),
     responses(
-        (status = 200, description = "The stroke: summary, time series, cautions and model.",
-            body = SimulateResponse),
+        (status = 200, description = "The stroke: as `application/json` (default) the summary, \
+            time series, cautions and model; as `image/svg+xml` a plot in two panels sharing \
+            the time axis, speed above and braking force below, with the moments the stack \
+            enters the tube and reaches its far end marked.",
+            content(
+                (SimulateResponse = "application/json"),
+                (String = "image/svg+xml")
+            )),
         (status = 400, description = "The body is not well-formed JSON.", body = Problem,
             content_type = "application/problem+json"),
+        (status = 406, description = "The Accept header allows neither application/json nor \
+            image/svg+xml.", body = Problem, content_type = "application/problem+json"),
         (status = 413, description = "The body exceeds the service's size limit.", body = Problem,
             content_type = "application/problem+json"),
         (status = 415, description = "The body is not declared as application/json.",
@@ -342,15 +378,23 @@ impl SimulateResponse {
 )]
 pub async fn simulate_stroke(
     State(state): State<AppState>,
+    headers: HeaderMap,
     ApiJson(request): ApiJson<SimulateRequest>,
-) -> Result<Json<SimulateResponse>, ApiError> {
+) -> Result<Response, ApiError> {
+    let media = negotiate::choose(&headers, &[Media::Json, Media::Svg])?;
     let (design, options) = request.validate(&state.limits)?;
     let limits = Arc::clone(&state.limits);
-    let stroke = state
+    // The answer is built and, for a plot, drawn inside the job: CPU work stays off the async
+    // workers and within the job's slot and deadline.
+    state
         .jobs
         .run("simulate", move || {
-            ringdrag_model::simulate_stroke(&design, &options, &limits).map_err(ApiError::from)
+            let stroke = ringdrag_model::simulate_stroke(&design, &options, &limits)?;
+            let response = SimulateResponse::from_model(stroke)?;
+            match media {
+                Media::Svg => Ok(negotiate::respond(Media::Svg, plot::stroke_svg(&response)?)),
+                _ => Ok(Json(response).into_response()),
+            }
         })
-        .await?;
-    SimulateResponse::from_model(stroke).map(Json)
+        .await
 }

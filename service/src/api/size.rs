@@ -1,0 +1,382 @@
+//! `POST /v1/size`: the smallest value of one design field that meets every target with a
+//! safety factor, at the worse of the cold and the hot condition.
+//!
+//! The request is validated here, once, with every problem reported together: the base design
+//! by the model (problems of the sized field are left out, since the search replaces its
+//! value), the range, the safety factor, the hot temperature, the targets, the tolerances and
+//! the stroke settings by this module. The search itself is the model's
+//! (`ringdrag_model::sizing::size`): it samples the range, checks that meeting the targets
+//! switches once, and bisects. When `tolerances` are given, the worst-case bands of the
+//! metrics are evaluated at the sized design, hot (`ringdrag_model::tolerance::bands`).
+
+use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
+use crate::api::simulate::{StartState, check_stroke_setup};
+use crate::api::sweep::check_base_design;
+use crate::extract::ApiJson;
+use crate::negotiate::{self, Media};
+use crate::problem::{ApiError, FieldProblem, Problem};
+use crate::state::AppState;
+use axum::Json;
+use axum::extract::State;
+use axum::http::HeaderMap;
+use axum::response::{IntoResponse, Response};
+use ringdrag_model::metrics::Metric;
+use ringdrag_model::report::Fidelity;
+use ringdrag_model::sizing::{self, SizeResult, SizeTarget};
+use ringdrag_model::tolerance::{self, ToleranceBands, Tolerances};
+use ringdrag_model::{DesignSpec, Limits, ModelError, StrokeOptions, designpath};
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+use std::sync::Arc;
+use utoipa::ToSchema;
+
+/// Smallest and largest safety factor accepted (the model's bounds).
+const SAFETY_FACTOR_RANGE: (f64, f64) = (1.0, 10.0);
+/// Coldest and hottest hot condition accepted, C (the model's bounds).
+const HOT_TEMPERATURE_RANGE_C: (f64, f64) = (-60.0, 400.0);
+
+/// The field to size and the range to search.
+#[derive(Debug, Clone, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct SizeVary {
+    /// Dotted path of a numeric design field, e.g. `tube.wall_thickness_m` (a leading
+    /// `design.` is allowed). Integer fields (`magnets.count`) size to whole numbers.
+    pub path: String,
+    /// Smallest value allowed, in the field's unit.
+    pub min: f64,
+    /// Largest value allowed, in the field's unit; greater than `min`.
+    pub max: f64,
+}
+
+fn sixty() -> f64 {
+    60.0
+}
+
+/// Request of `POST /v1/size`.
+#[derive(Debug, Clone, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct SizeRequest {
+    /// The design to size: magnets, tube and load; the sized field's value in it is ignored.
+    pub design: DesignSpec,
+    /// The field to size and its range.
+    pub vary: SizeVary,
+    /// Targets the sized design must meet, at least one.
+    pub target: SizeTarget,
+    /// Safety factor applied in the safe direction (speed and time limits divided by it, a
+    /// minimum time multiplied by it), from 1 to 10.
+    #[schema(minimum = 1.0, maximum = 10.0)]
+    pub safety_factor: f64,
+    /// Hot condition of tube and magnets, C: resistivity rises and remanence falls, so braking
+    /// weakens. Every target is checked both at the design's own temperatures (cold) and here.
+    /// Give the design's temperature to size cold only.
+    #[schema(minimum = -60.0, maximum = 400.0)]
+    pub hot_temperature_c: f64,
+    /// Start state of the strokes of time and deceleration targets; default: the stack centre
+    /// at the entry end, at rest.
+    #[serde(default)]
+    pub start: StartState,
+    /// Longest simulated time of each stroke, s; at most the service's
+    /// `RINGDRAG_MAX_SIM_TIME_S` (default 3600).
+    #[serde(default = "sixty")]
+    #[schema(exclusive_minimum = 0.0, maximum = 3600.0, default = 60.0)]
+    pub max_time_s: f64,
+    /// Fidelity of the strokes of time and deceleration targets (as in `/v1/simulate`).
+    #[serde(default)]
+    pub fidelity: Fidelity,
+    /// Manufacturing tolerances; when given, the response carries `tolerance_bands` of the
+    /// metrics at the sized design, hot.
+    #[serde(default)]
+    #[schema(value_type = Tolerances)]
+    pub tolerances: Option<Tolerances>,
+}
+
+/// A validated sizing job.
+#[derive(Debug)]
+pub struct ValidSize {
+    job: sizing::SizeRequest,
+    hot_temperature_c: f64,
+    tolerances: Option<Tolerances>,
+}
+
+/// Adds the field problems of a model validation error to `errors`.
+fn push_model_error(err: ModelError, errors: &mut Vec<FieldProblem>) {
+    match ApiError::from(err) {
+        ApiError::Invalid(found) | ApiError::JobTooLarge(found) => errors.extend(found),
+        other => errors.push(FieldProblem {
+            path: String::new(),
+            message: other.to_string(),
+        }),
+    }
+}
+
+/// The targets given, by their request names.
+fn targets(t: &SizeTarget) -> Vec<(&'static str, f64)> {
+    [
+        ("max_terminal_speed_m_per_s", t.max_terminal_speed_m_per_s),
+        ("max_exit_time_s", t.max_exit_time_s),
+        ("min_exit_time_s", t.min_exit_time_s),
+        ("max_deceleration_m_per_s2", t.max_deceleration_m_per_s2),
+    ]
+    .into_iter()
+    .filter_map(|(name, v)| v.map(|v| (name, v)))
+    .collect()
+}
+
+impl SizeRequest {
+    /// The validated job, or every problem found.
+    pub fn validate(self, limits: &Limits) -> Result<ValidSize, ApiError> {
+        let mut errors = Vec::new();
+        let mut too_large = Vec::new();
+        check_base_design(&self.design, &[self.vary.path.as_str()], &mut errors);
+        if let Err(e) = designpath::check_path(&self.vary.path, "vary.path") {
+            push_model_error(e, &mut errors);
+        }
+        if self.vary.min.partial_cmp(&self.vary.max) != Some(std::cmp::Ordering::Less) {
+            errors.push(FieldProblem {
+                path: "vary.max".into(),
+                message: format!("must be greater than vary.min ({})", self.vary.min),
+            });
+        }
+        let (sf_lo, sf_hi) = SAFETY_FACTOR_RANGE;
+        if !(sf_lo..=sf_hi).contains(&self.safety_factor) {
+            errors.push(FieldProblem {
+                path: "safety_factor".into(),
+                message: format!("must be between {sf_lo} and {sf_hi}"),
+            });
+        }
+        let (t_lo, t_hi) = HOT_TEMPERATURE_RANGE_C;
+        if !(t_lo..=t_hi).contains(&self.hot_temperature_c) {
+            errors.push(FieldProblem {
+                path: "hot_temperature_c".into(),
+                message: format!("must be between {t_lo} and {t_hi} C"),
+            });
+        }
+        let given = targets(&self.target);
+        if given.is_empty() {
+            errors.push(FieldProblem {
+                path: "target".into(),
+                message: "give at least one target: max_terminal_speed_m_per_s, \
+                          max_exit_time_s, min_exit_time_s or max_deceleration_m_per_s2"
+                    .into(),
+            });
+        }
+        for (name, v) in given {
+            if !(v.is_finite() && v > 0.0) {
+                errors.push(FieldProblem {
+                    path: format!("target.{name}"),
+                    message: "must be greater than zero".into(),
+                });
+            }
+        }
+        if let Some(t) = &self.tolerances
+            && let Err(e) = t.check("tolerances")
+        {
+            push_model_error(e, &mut errors);
+        }
+        check_stroke_setup(
+            &self.start,
+            self.max_time_s,
+            limits,
+            &mut errors,
+            &mut too_large,
+        );
+        if !errors.is_empty() {
+            return Err(ApiError::Invalid(errors));
+        }
+        if !too_large.is_empty() {
+            return Err(ApiError::JobTooLarge(too_large));
+        }
+        Ok(ValidSize {
+            job: sizing::SizeRequest {
+                base: self.design,
+                path: self.vary.path,
+                min: self.vary.min,
+                max: self.vary.max,
+                target: self.target,
+                safety_factor: self.safety_factor,
+                hot_temperature_c: Some(self.hot_temperature_c),
+                stroke: StrokeOptions {
+                    start_position_m: self.start.position_m,
+                    start_speed_m_per_s: self.start.speed_m_per_s,
+                    max_time_s: self.max_time_s,
+                    fidelity: self.fidelity,
+                    // Only the summary of each stroke is used.
+                    samples: 2,
+                    ring_width_m: None,
+                    radial_layers: None,
+                },
+            },
+            hot_temperature_c: self.hot_temperature_c,
+            tolerances: self.tolerances,
+        })
+    }
+}
+
+/// Metrics of the sized design at both temperatures.
+#[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
+pub struct AchievedDto {
+    /// At the design's own temperatures, by metric name; null where a metric does not exist
+    /// (no terminal speed when the brake cannot hold the load, no exit time).
+    pub cold: BTreeMap<String, Option<f64>>,
+    /// At `hot_temperature_c`, by metric name.
+    pub hot: BTreeMap<String, Option<f64>>,
+}
+
+/// Response of `POST /v1/size`.
+#[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
+pub struct SizeResponse {
+    /// Whether some value in the range meets every target with the safety factor, cold and
+    /// hot.
+    pub feasible: bool,
+    /// The smallest such value, in the field's unit; null when infeasible.
+    pub value: Option<f64>,
+    /// The value reported in `design` and `achieved`: `value` when feasible, otherwise the
+    /// value in the range that comes closest.
+    pub best_value: f64,
+    /// The design with the field set to `best_value` (a complete design object, ready for
+    /// `/v1/force-curve` or `/v1/simulate`).
+    pub design: DesignSpec,
+    /// The metrics at `best_value`, cold and hot.
+    pub achieved: AchievedDto,
+    /// Achieved safety factor: the smallest over the targets of target / achieved (maximum
+    /// targets) or achieved / target (minimum targets), at the worse temperature. It equals
+    /// the requested safety factor at a tight optimum and is below 1 where a target is missed;
+    /// null when unbounded (every target met whatever the size, e.g. a minimum time on a
+    /// stroke that never exits).
+    pub margin: Option<f64>,
+    /// The same ratio per target, by target name; null when unbounded.
+    pub margins: BTreeMap<String, Option<f64>>,
+    /// Designs evaluated during the search (each cold and hot).
+    pub evaluations: u64,
+    /// Worst-case bands of the metrics over the tolerance corners, at the sized design, hot;
+    /// present when `tolerances` were given.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(value_type = ToleranceBands)]
+    pub tolerance_bands: Option<ToleranceBands>,
+    /// Cautions as text, the standing safety caution first.
+    pub cautions: Vec<String>,
+    /// The same cautions with their kinds.
+    pub caution_details: Vec<CautionDetail>,
+    /// Method and fidelity; each evaluation chooses its own discretisation.
+    pub model: ModelBlock,
+}
+
+fn finite_map(map: BTreeMap<String, Option<f64>>) -> BTreeMap<String, Option<f64>> {
+    map.into_iter()
+        .map(|(k, v)| (k, v.filter(|x| x.is_finite())))
+        .collect()
+}
+
+impl SizeResponse {
+    /// The response record of a model result; refuses non-finite numbers where a number is
+    /// due, and writes unbounded margins as null.
+    pub fn from_model(
+        result: SizeResult,
+        tolerance_bands: Option<ToleranceBands>,
+    ) -> Result<Self, ApiError> {
+        let mut check = FiniteCheck::default();
+        let (cautions, caution_details) = cautions(result.cautions);
+        let response = Self {
+            feasible: result.feasible,
+            value: check.opt("value", result.value),
+            best_value: check.num("best_value", result.best_value),
+            design: result.design,
+            achieved: AchievedDto {
+                cold: finite_map(result.achieved_cold),
+                hot: finite_map(result.achieved_hot),
+            },
+            margin: Some(result.margin).filter(|m| m.is_finite()),
+            margins: result
+                .margins
+                .into_iter()
+                .map(|(k, v)| (k, Some(v).filter(|m| m.is_finite())))
+                .collect(),
+            evaluations: result.evaluations as u64,
+            tolerance_bands,
+            cautions,
+            caution_details,
+            model: ModelBlock::from_model(result.model, &mut check),
+        };
+        check.finish(response)
+    }
+}
+
+/// The metric of a contract name.
+fn metric_named(name: &str) -> Option<Metric> {
+    serde_json::from_value(serde_json::Value::String(name.to_string())).ok()
+}
+
+/// Sizes one design field to meet targets with a safety factor, cold and hot.
+#[utoipa::path(
+    post,
+    path = "/v1/size",
+    tag = "jobs",
+    operation_id = "size_design",
+    request_body(
+        content = SizeRequest,
+        content_type = "application/json",
+        description = "The design, the field and range to search, the targets, the safety \
+            factor, the hot temperature and, optionally, stroke settings and tolerances."
+    ),
+    responses(
+        (status = 200, description = "The sized value (or, when infeasible, the closest), the \
+            sized design, the metrics cold and hot, the achieved safety factor and, with \
+            tolerances, the worst-case bands.", body = SizeResponse),
+        (status = 400, description = "The body is not well-formed JSON.", body = Problem,
+            content_type = "application/problem+json"),
+        (status = 406, description = "The Accept header does not allow application/json.",
+            body = Problem, content_type = "application/problem+json"),
+        (status = 413, description = "The body exceeds the service's size limit.", body = Problem,
+            content_type = "application/problem+json"),
+        (status = 415, description = "The body is not declared as application/json.",
+            body = Problem, content_type = "application/problem+json"),
+        (status = 422, description = "Invalid fields (an unknown path, an empty range, no \
+            target, a safety factor out of range...), or a job above the service limits; \
+            `errors` names each field.", body = Problem,
+            content_type = "application/problem+json"),
+        (status = 503, description = "Overloaded or timed out; retry after `Retry-After` \
+            seconds.", body = Problem, content_type = "application/problem+json",
+            headers(("Retry-After" = u64, description = "Seconds to wait before retrying."))),
+    )
+)]
+pub async fn size_design(
+    State(state): State<AppState>,
+    headers: HeaderMap,
+    ApiJson(request): ApiJson<SizeRequest>,
+) -> Result<Response, ApiError> {
+    negotiate::choose(&headers, &[Media::Json])?;
+    let valid = request.validate(&state.limits)?;
+    let limits = Arc::clone(&state.limits);
+    // The runner answers 503 once the request deadline passes; the search then stops before
+    // its next design evaluation instead of holding the slot to the end.
+    let deadline = std::time::Instant::now() + state.jobs.timeout();
+    let (result, bands) = state
+        .jobs
+        .run("size", move || {
+            let keep_going = move || std::time::Instant::now() < deadline;
+            let result = sizing::size_while(&valid.job, &limits, &keep_going)?;
+            let bands = match &valid.tolerances {
+                Some(tolerances) => {
+                    let mut hot = result.design.clone();
+                    hot.tube.temperature_c = valid.hot_temperature_c;
+                    hot.magnets.temperature_c = Some(valid.hot_temperature_c);
+                    let metrics: Vec<Metric> = result
+                        .achieved_hot
+                        .keys()
+                        .filter_map(|k| metric_named(k))
+                        .collect();
+                    Some(tolerance::bands(
+                        &hot,
+                        tolerances,
+                        &metrics,
+                        &valid.job.stroke,
+                        &limits,
+                    )?)
+                }
+                None => None,
+            };
+            Ok((result, bands))
+        })
+        .await?;
+    SizeResponse::from_model(result, bands).map(|r| Json(r).into_response())
+}

@@ -1,0 +1,350 @@
+//! SVG plots (`Accept: image/svg+xml`): well-formed XML, axis titles with units, a key, lines
+//! that carry the data, and content negotiation (406, errors staying problem documents).
+
+use crate::helpers::{TestApp, expect_problem, rel, sample_design, spawn_app};
+use serde_json::{Value, json};
+
+/// `POST path` asking for `accept`.
+async fn post_accepting(
+    app: &TestApp,
+    path: &str,
+    accept: &str,
+    body: &Value,
+) -> reqwest::Response {
+    app.client
+        .post(format!("{}{path}", app.base))
+        .header("accept", accept)
+        .json(body)
+        .send()
+        .await
+        .expect("request sent")
+}
+
+/// The SVG answer of `POST path`, checked to be `image/svg+xml`.
+async fn post_svg(app: &TestApp, path: &str, body: &Value) -> String {
+    let response = post_accepting(app, path, "image/svg+xml", body).await;
+    let status = response.status().as_u16();
+    let content_type = response
+        .headers()
+        .get("content-type")
+        .and_then(|v| v.to_str().ok())
+        .unwrap_or_default()
+        .to_string();
+    let text = response.text().await.expect("body");
+    assert_eq!(status, 200, "{text}");
+    assert_eq!(content_type, "image/svg+xml");
+    text
+}
+
+/// What a test reads from an SVG document: its texts and its polylines (stroke colour, points).
+struct Svg {
+    texts: Vec<String>,
+    polylines: Vec<(String, Vec<(f64, f64)>)>,
+    circles: usize,
+}
+
+/// Parses `text` as XML (any well-formedness error fails the test) with an `svg` root.
+fn parse_svg(text: &str) -> Svg {
+    let doc = roxmltree::Document::parse(text).expect("the SVG is well-formed XML");
+    let root = doc.root_element();
+    assert_eq!(root.tag_name().name(), "svg");
+    assert!(root.attribute("width").is_some() && root.attribute("height").is_some());
+    let mut svg = Svg {
+        texts: Vec::new(),
+        polylines: Vec::new(),
+        circles: 0,
+    };
+    for node in root.descendants().filter(roxmltree::Node::is_element) {
+        match node.tag_name().name() {
+            "text" => svg
+                .texts
+                .push(node.text().unwrap_or_default().trim().to_string()),
+            "polyline" => {
+                let points = node
+                    .attribute("points")
+                    .unwrap_or_default()
+                    .split_whitespace()
+                    .filter_map(|p| {
+                        let (x, y) = p.split_once(',')?;
+                        Some((x.parse().ok()?, y.parse().ok()?))
+                    })
+                    .collect();
+                let stroke = node.attribute("stroke").unwrap_or_default().to_string();
+                svg.polylines.push((stroke, points));
+            }
+            "circle" => svg.circles += 1,
+            _ => {}
+        }
+    }
+    svg
+}
+
+impl Svg {
+    fn has_text(&self, wanted: &str) -> bool {
+        self.texts.iter().any(|t| t == wanted)
+    }
+
+    fn text_starting(&self, prefix: &str) -> Option<&str> {
+        self.texts
+            .iter()
+            .find(|t| t.starts_with(prefix))
+            .map(String::as_str)
+    }
+
+    /// Data lines: polylines with more than two points (key swatches and markers have two).
+    fn data_lines(&self) -> Vec<&Vec<(f64, f64)>> {
+        self.polylines
+            .iter()
+            .filter(|(_, p)| p.len() > 2)
+            .map(|(_, p)| p)
+            .collect()
+    }
+}
+
+/// The number in a key label such as `terminal speed 0.0505 m/s`.
+fn number_after(label: &str, prefix: &str) -> f64 {
+    label
+        .strip_prefix(prefix)
+        .and_then(|rest| rest.split_whitespace().next())
+        .and_then(|n| n.parse().ok())
+        .unwrap_or_else(|| panic!("no number in {label:?}"))
+}
+
+#[tokio::test]
+async fn the_force_curve_plot_is_an_svg_with_titled_axes_and_the_speeds_marked() {
+    let app = spawn_app().await;
+    let request = json!({ "design": sample_design() });
+    let curve = app.post_ok("/v1/force-curve", &request).await;
+    let svg = parse_svg(&post_svg(&app, "/v1/force-curve", &request).await);
+    assert!(svg.has_text("speed [m/s]"), "{:?}", svg.texts);
+    assert!(svg.has_text("braking force [N]"), "{:?}", svg.texts);
+    // The key names the terminal and critical speeds with the JSON answer's values (three
+    // significant digits, so within 0.5 %: common practice for a label).
+    let vt = curve["terminal_speed_m_per_s"].as_f64().expect("terminal");
+    let label = svg
+        .text_starting("terminal speed ")
+        .expect("terminal speed in the key");
+    assert!(
+        rel(number_after(label, "terminal speed "), vt) < 0.005,
+        "{label} vs {vt}"
+    );
+    let vc = curve["critical_speed_m_per_s"].as_f64().expect("critical");
+    let label = svg
+        .text_starting("critical speed ")
+        .expect("critical speed in the key");
+    assert!(
+        rel(number_after(label, "critical speed "), vc) < 0.005,
+        "{label} vs {vc}"
+    );
+    // One data line with one vertex per speed (40 by default, the contract), left to right.
+    let lines = svg.data_lines();
+    assert_eq!(lines.len(), 1);
+    assert_eq!(lines[0].len(), 40);
+    assert!(lines[0].windows(2).all(|w| w[1].0 >= w[0].0));
+    // The dot where braking meets the load.
+    assert_eq!(svg.circles, 1);
+}
+
+#[tokio::test]
+async fn the_stroke_plot_has_two_panels_over_time() {
+    let app = spawn_app().await;
+    let request = json!({
+        "design": sample_design(),
+        "start": { "position_m": -0.03, "speed_m_per_s": 0.0 },
+        "samples": 120
+    });
+    let stroke = app.post_ok("/v1/simulate", &request).await;
+    let svg = parse_svg(&post_svg(&app, "/v1/simulate", &request).await);
+    for title in ["speed [m/s]", "braking force [N]"] {
+        assert!(svg.has_text(title), "{title} missing: {:?}", svg.texts);
+    }
+    assert_eq!(
+        svg.texts.iter().filter(|t| *t == "time [s]").count(),
+        2,
+        "one time axis per panel"
+    );
+    // Speed and force: one line each, one vertex per sample.
+    let lines = svg.data_lines();
+    assert_eq!(lines.len(), 2);
+    assert!(lines.iter().all(|l| l.len() == 120));
+    // The key marks the entry (released 30 mm above it) and the far end with the JSON values.
+    let exit = stroke["summary"]["exit_time_s"].as_f64().expect("exits");
+    let label = svg
+        .text_starting("reaches the far end at ")
+        .expect("exit in the key");
+    assert!(rel(number_after(label, "reaches the far end at "), exit) < 0.005);
+    assert!(svg.text_starting("enters the tube at ").is_some());
+    // The title says how the run ended (the summary's end reason).
+    assert_eq!(stroke["summary"]["end_reason"], "passed_tube");
+    assert!(
+        svg.text_starting("Stroke through the tube: passed it in ")
+            .is_some(),
+        "{:?}",
+        svg.texts
+    );
+}
+
+#[tokio::test]
+async fn extreme_inputs_still_draw_promptly() {
+    let app = spawn_app().await;
+    // Speeds down to the smallest subnormal number, values at the ends of the f64 range: the
+    // logarithmic axes keep to twelve decades and normal numbers, so every plot finishes
+    // (source: IEEE 754 binary64 ranges; a regression test for a tick loop that never ended).
+    let bodies = [
+        (
+            "/v1/force-curve",
+            json!({ "design": sample_design(), "speeds_m_per_s": [5e-324, 10000.0] }),
+        ),
+        (
+            "/v1/force-curve",
+            json!({ "design": sample_design(), "speeds_m_per_s": [1e-320] }),
+        ),
+        (
+            "/v1/sweep",
+            json!({
+                "design": sample_design(),
+                "vary": [{ "path": "load.applied_force_n", "values": [5e-324, 1e-323] }],
+                "metrics": ["terminal_speed_m_per_s"]
+            }),
+        ),
+        (
+            "/v1/sweep",
+            json!({
+                "design": sample_design(),
+                "vary": [{ "path": "load.applied_force_n", "values": [1e307, 1.79e308] }],
+                "metrics": ["terminal_speed_m_per_s"]
+            }),
+        ),
+    ];
+    for (path, body) in bodies {
+        let svg = tokio::time::timeout(
+            std::time::Duration::from_secs(20),
+            post_svg(&app, path, &body),
+        )
+        .await
+        .unwrap_or_else(|_| panic!("{path} {body} did not finish"));
+        parse_svg(&svg);
+    }
+    let ready: Value = app.get("/readyz").await.json().await.expect("json");
+    assert_eq!(ready["job_slots_free"], ready["job_slots"], "{ready}");
+}
+
+#[tokio::test]
+async fn the_sweep_plot_draws_a_line_per_second_axis_value() {
+    let app = spawn_app().await;
+    let request = json!({
+        "design": sample_design(),
+        "vary": [
+            { "path": "tube.wall_thickness_m", "from": 0.0005, "to": 0.004, "steps": 5 },
+            { "path": "load.payload_mass_kg", "values": [0.0, 0.05, 0.1] }
+        ],
+        "metrics": ["terminal_speed_m_per_s", "peak_force_n"]
+    });
+    let svg = parse_svg(&post_svg(&app, "/v1/sweep", &request).await);
+    for title in [
+        "tube wall thickness [m]",
+        "terminal speed [m/s]",
+        "peak force [N]",
+    ] {
+        assert!(svg.has_text(title), "{title} missing: {:?}", svg.texts);
+    }
+    for value in ["0", "0.05", "0.1"] {
+        let entry = format!("load.payload_mass_kg = {value}");
+        assert!(svg.has_text(&entry), "{entry} missing from the key");
+    }
+    // Two panels of three lines, five points each.
+    let lines = svg.data_lines();
+    assert_eq!(lines.len(), 6);
+    assert!(lines.iter().all(|l| l.len() == 5));
+    // Terminal speed falls as the wall thickens (source: Levin, da Silveira & Rizzato, Am. J.
+    // Phys. 74, 815, 2006: damping grows with the wall): in SVG, y grows downwards.
+    for line in &lines[..3] {
+        assert!(line.windows(2).all(|w| w[1].1 > w[0].1), "{line:?}");
+    }
+}
+
+#[tokio::test]
+async fn negotiation_picks_the_representation_and_refuses_the_unknown() {
+    let app = spawn_app().await;
+    let request = json!({ "design": sample_design(), "speeds_m_per_s": [0.01, 0.1, 1.0] });
+    // Weights decide (source: RFC 9110, section 12.5.1).
+    let r = post_accepting(
+        &app,
+        "/v1/force-curve",
+        "application/json;q=0.4, image/svg+xml;q=0.9",
+        &request,
+    )
+    .await;
+    assert_eq!(
+        r.headers()
+            .get("content-type")
+            .and_then(|v| v.to_str().ok()),
+        Some("image/svg+xml")
+    );
+    let r = post_accepting(&app, "/v1/force-curve", "*/*", &request).await;
+    assert_eq!(
+        r.headers()
+            .get("content-type")
+            .and_then(|v| v.to_str().ok()),
+        Some("application/json")
+    );
+    for (path, accept) in [
+        ("/v1/force-curve", "application/x-ndjson"),
+        ("/v1/simulate", "text/csv"),
+        ("/v1/force-curve", "image/png"),
+    ] {
+        let body = if path == "/v1/simulate" {
+            json!({ "design": sample_design() })
+        } else {
+            request.clone()
+        };
+        let problem = expect_problem(post_accepting(&app, path, accept, &body).await, 406).await;
+        assert_eq!(problem["title"], "Not Acceptable");
+    }
+    // Errors stay problem documents when a plot was asked for.
+    let mut bad = request.clone();
+    bad["design"]["tube"]["inner_diameter_m"] = json!(-1.0);
+    expect_problem(
+        post_accepting(&app, "/v1/force-curve", "image/svg+xml", &bad).await,
+        422,
+    )
+    .await;
+    // A logarithmic speed axis cannot show a speed of zero alone.
+    let zero = json!({ "design": sample_design(), "speeds_m_per_s": [0.0] });
+    let problem = expect_problem(
+        post_accepting(&app, "/v1/force-curve", "image/svg+xml", &zero).await,
+        422,
+    )
+    .await;
+    assert_eq!(crate::helpers::error_paths(&problem), ["speeds_m_per_s"]);
+    // A sweep plot with more lines than a panel can show is refused before computing.
+    let crowded = json!({
+        "design": sample_design(),
+        "vary": [
+            { "path": "tube.wall_thickness_m", "values": [0.001, 0.002] },
+            { "path": "load.payload_mass_kg", "from": 0.0, "to": 1.0, "steps": 5 },
+            { "path": "load.incline_deg", "values": [30.0, 60.0, 90.0] }
+        ],
+        "metrics": ["terminal_speed_m_per_s"]
+    });
+    let problem = expect_problem(
+        post_accepting(&app, "/v1/sweep", "image/svg+xml", &crowded).await,
+        422,
+    )
+    .await;
+    assert_eq!(crate::helpers::error_paths(&problem), ["vary"]);
+    // Values spread wider than a 64-bit float holds cannot share one axis (source: IEEE 754
+    // binary64, largest finite value about 1.8e308): refused, not drawn forever.
+    let wide = json!({
+        "design": sample_design(),
+        "vary": [{ "path": "load.applied_force_n", "values": [-1e308, 1e308] }],
+        "metrics": ["terminal_speed_m_per_s"]
+    });
+    let problem = expect_problem(
+        post_accepting(&app, "/v1/sweep", "image/svg+xml", &wide).await,
+        422,
+    )
+    .await;
+    assert_eq!(crate::helpers::error_paths(&problem), ["vary[0]"]);
+    app.assert_healthy().await;
+}
