@@ -668,18 +668,11 @@ fn inductive_path(
     let err = outcome
         .tally
         .energy_balance_error(outcome.stored_j, outcome.dropped_j);
-    let mut info = ModelInfo::new(
+    let mut info = ring_circuit_info(
         "ring_circuit",
-        Fidelity::Inductive,
-        Discretisation {
-            radial_layers: Some(grid.layers),
-            axial_rings: Some(grid.rings),
-            ring_width_m: Some(grid.ring_width_m),
-            time_step_s: Some(outcome.dt_min_s),
-            steps: Some(outcome.tally.steps),
-            coupling_reach_m: Some(circuit.reach_rings() as f64 * grid.ring_width_m),
-            ..Discretisation::default()
-        },
+        &grid,
+        &outcome,
+        circuit.reach_rings() as f64 * grid.ring_width_m,
     );
     info.error_estimate_relative =
         Some(err.max(radial_error_estimate(design, ctx.grid, ctx.c_mid_n_s_per_m)));
@@ -741,6 +734,24 @@ fn quasi_static_path(
 /// quasi-static terminal speed: the drive is compared with the peak of the steady force-speed
 /// curve of a long tube ([`crate::spectral::SteadySolver`]). A load beyond the peak force cannot
 /// be held at any speed (Partovi & Morris, Can. J. Phys. 84, 253, 2006, on the force peak).
+/// The model block of an inductive run: the ring grid, the smallest step, the step count and
+/// the axial reach of the mutual coupling kept.
+fn ring_circuit_info(method: &str, grid: &RingGrid, outcome: &Outcome, reach_m: f64) -> ModelInfo {
+    ModelInfo::new(
+        method,
+        Fidelity::Inductive,
+        Discretisation {
+            radial_layers: Some(grid.layers),
+            axial_rings: Some(grid.rings),
+            ring_width_m: Some(grid.ring_width_m),
+            time_step_s: Some(outcome.dt_min_s),
+            steps: Some(outcome.tally.steps),
+            coupling_reach_m: Some(reach_m),
+            ..Discretisation::default()
+        },
+    )
+}
+
 fn runaway_caution(design: &Design, plan: &Plan, tally: &Tally) -> Option<Caution> {
     let (v, _, accel) = tally.interior_last?;
     let drive = plan.mech.drive_n - plan.mech.friction_n;
@@ -1043,18 +1054,11 @@ pub fn simulate_stroke_dense_reference(
     let err = outcome
         .tally
         .energy_balance_error(outcome.stored_j, outcome.dropped_j);
-    let mut info = ModelInfo::new(
+    let mut info = ring_circuit_info(
         "ring_circuit_dense_reference",
-        Fidelity::Inductive,
-        Discretisation {
-            radial_layers: Some(grid.layers),
-            axial_rings: Some(grid.rings),
-            ring_width_m: Some(grid.ring_width_m),
-            time_step_s: Some(outcome.dt_min_s),
-            steps: Some(outcome.tally.steps),
-            coupling_reach_m: Some(design.tube.length_m),
-            ..Discretisation::default()
-        },
+        &grid,
+        &outcome,
+        design.tube.length_m,
     );
     info.error_estimate_relative = Some(err);
     let cautions = vec![Caution::standing_safety()];
