@@ -49,6 +49,35 @@ pub struct MagnetStack {
 }
 
 impl MagnetStack {
+    /// A stack at 20 C with no grade: remanence taken as temperature-independent, density
+    /// that of sintered NdFeB. For tests and callers that build geometry directly; requests
+    /// go through [`Design::from_spec`], which validates.
+    pub fn at_20c(
+        outer_radius_m: f64,
+        inner_radius_m: f64,
+        magnet_length_m: f64,
+        remanence_t: f64,
+        count: usize,
+        polarity: Polarity,
+        spacer_length_m: f64,
+    ) -> Self {
+        Self {
+            outer_radius_m,
+            inner_radius_m,
+            magnet_length_m,
+            count,
+            polarity,
+            spacer_length_m,
+            remanence_20c_t: remanence_t,
+            remanence_temperature_coefficient_per_k: 0.0,
+            temperature_c: 20.0,
+            remanence_t,
+            density_kg_per_m3: DEFAULT_MAGNET_DENSITY_KG_PER_M3,
+            grade_id: None,
+            max_working_temperature_c: None,
+        }
+    }
+
     /// Equivalent surface current density K = M = Br / mu0 on the curved surfaces, A/m
     /// (Amperian current model: Jackson, Classical Electrodynamics, 3rd ed., sec. 5.8-5.10).
     pub fn surface_current_a_per_m(&self) -> f64 {

@@ -171,7 +171,7 @@ fn integrate(f: impl Fn(f64) -> f64, a: f64, b: f64, panels: usize, rule: &[(f64
     sum
 }
 
-/// A magnet stack built directly (fields are plain data); values invented for the tests.
+/// An invented magnet stack, built directly from its fields.
 fn stack(
     outer_radius_m: f64,
     inner_radius_m: f64,
@@ -181,21 +181,15 @@ fn stack(
     polarity: Polarity,
     spacer_length_m: f64,
 ) -> MagnetStack {
-    MagnetStack {
+    MagnetStack::at_20c(
         outer_radius_m,
         inner_radius_m,
         magnet_length_m,
+        remanence_t,
         count,
         polarity,
         spacer_length_m,
-        remanence_20c_t: remanence_t,
-        remanence_temperature_coefficient_per_k: 0.0,
-        temperature_c: 20.0,
-        remanence_t,
-        density_kg_per_m3: 7500.0,
-        grade_id: None,
-        max_working_temperature_c: None,
-    }
+    )
 }
 
 fn cylinder(outer_radius_m: f64, length_m: f64, remanence_t: f64) -> MagnetStack {

@@ -15,7 +15,6 @@ fn rel_diff(a: f64, b: f64) -> f64 {
 }
 
 /// An invented magnet stack, built directly from its fields.
-#[allow(clippy::too_many_arguments)]
 fn stack(
     outer_radius_m: f64,
     inner_radius_m: f64,
@@ -25,21 +24,15 @@ fn stack(
     polarity: Polarity,
     spacer_length_m: f64,
 ) -> MagnetStack {
-    MagnetStack {
+    MagnetStack::at_20c(
         outer_radius_m,
         inner_radius_m,
         magnet_length_m,
+        remanence_t,
         count,
         polarity,
         spacer_length_m,
-        remanence_20c_t: remanence_t,
-        remanence_temperature_coefficient_per_k: 0.0,
-        temperature_c: 20.0,
-        remanence_t,
-        density_kg_per_m3: 7500.0,
-        grade_id: None,
-        max_working_temperature_c: None,
-    }
+    )
 }
 
 /// Random stacks: radius 1-30 mm, optional bore, length 1-50 mm, 1-6 magnets, spacers up to
