@@ -171,29 +171,8 @@ fn integrate(f: impl Fn(f64) -> f64, a: f64, b: f64, panels: usize, rule: &[(f64
     sum
 }
 
-/// An invented magnet stack, built directly from its fields.
-fn stack(
-    outer_radius_m: f64,
-    inner_radius_m: f64,
-    magnet_length_m: f64,
-    remanence_t: f64,
-    count: usize,
-    polarity: Polarity,
-    spacer_length_m: f64,
-) -> MagnetStack {
-    MagnetStack::at_20c(
-        outer_radius_m,
-        inner_radius_m,
-        magnet_length_m,
-        remanence_t,
-        count,
-        polarity,
-        spacer_length_m,
-    )
-}
-
 fn cylinder(outer_radius_m: f64, length_m: f64, remanence_t: f64) -> MagnetStack {
-    stack(
+    MagnetStack::at_20c(
         outer_radius_m,
         0.0,
         length_m,
@@ -704,7 +683,7 @@ fn biot_savart_on_axis(radius: f64, length: f64, k_sheet: f64, z: f64) -> f64 {
 fn on_axis_field_against_biot_savart_sum() {
     // A 3-magnet alternating stack of rings with spacers; offsets and signs built here.
     let (ro, ri, lm, br, gap) = (0.006, 0.002, 0.01, 1.3, 0.003);
-    let s = stack(ro, ri, lm, br, 3, Polarity::Alternating, gap);
+    let s = MagnetStack::at_20c(ro, ri, lm, br, 3, Polarity::Alternating, gap);
     let k_sheet = br / MU0;
     for z in [-0.04, -0.0123, -0.005, 0.0, 0.0021, 0.0065, 0.013, 0.1] {
         let mut direct = 0.0;
@@ -739,7 +718,7 @@ fn flux_derivative_against_quadrature_fixture() {
     for c in &r.flux.cases {
         // source: fixture, mpmath quadrature of Maxwell's M over the magnet length, then
         // differentiated numerically (no closed form).
-        let s = stack(
+        let s = MagnetStack::at_20c(
             c.outer_radius_m,
             c.inner_radius_m,
             c.length_m,
@@ -778,7 +757,7 @@ fn flux_derivative_far_field_is_a_dipole() {
         (0.006, 0.0, 0.02, 1.3, 0.0075),
         (0.0125, 0.004, 0.003, 1.1, 0.016),
     ] {
-        let s = stack(ro, ri, lm, br, 1, Polarity::Aligned, 0.0);
+        let s = MagnetStack::at_20c(ro, ri, lm, br, 1, Polarity::Aligned, 0.0);
         let volume = PI * (ro * ro - ri * ri) * lm;
         let moment = br * volume / MU0;
         // The stack's own moment (design.rs) agrees with this independent one.
@@ -806,9 +785,9 @@ fn ring_magnet_is_outer_cylinder_minus_bore() {
     // Furlani, Permanent Magnet and Electromechanical Devices, 2001; superposition).
     let (ro, ri, lm, br) = (0.01, 0.004, 0.005, 1.2);
     for polarity in [Polarity::Aligned, Polarity::Alternating] {
-        let ring = stack(ro, ri, lm, br, 2, polarity, 0.001);
-        let outer = stack(ro, 0.0, lm, br, 2, polarity, 0.001);
-        let bore = stack(ri, 0.0, lm, br, 2, polarity, 0.001);
+        let ring = MagnetStack::at_20c(ro, ri, lm, br, 2, polarity, 0.001);
+        let outer = MagnetStack::at_20c(ro, 0.0, lm, br, 2, polarity, 0.001);
+        let bore = MagnetStack::at_20c(ri, 0.0, lm, br, 2, polarity, 0.001);
         for (r, z) in [
             (0.011, 0.0),
             (0.011, 0.0031),

@@ -14,27 +14,6 @@ fn rel_diff(a: f64, b: f64) -> f64 {
     (a - b).abs() / a.abs().max(b.abs()).max(f64::MIN_POSITIVE)
 }
 
-/// An invented magnet stack, built directly from its fields.
-fn stack(
-    outer_radius_m: f64,
-    inner_radius_m: f64,
-    magnet_length_m: f64,
-    remanence_t: f64,
-    count: usize,
-    polarity: Polarity,
-    spacer_length_m: f64,
-) -> MagnetStack {
-    MagnetStack::at_20c(
-        outer_radius_m,
-        inner_radius_m,
-        magnet_length_m,
-        remanence_t,
-        count,
-        polarity,
-        spacer_length_m,
-    )
-}
-
 /// Random stacks: radius 1-30 mm, optional bore, length 1-50 mm, 1-6 magnets, spacers up to
 /// 10 mm, remanence 0.2-1.5 T (ranges invented to cover practical designs).
 fn any_stack() -> impl Strategy<Value = MagnetStack> {
@@ -55,7 +34,7 @@ fn any_stack() -> impl Strategy<Value = MagnetStack> {
             } else {
                 Polarity::Aligned
             };
-            stack(ro, ri, lm, br, n, polarity, gap)
+            MagnetStack::at_20c(ro, ri, lm, br, n, polarity, gap)
         })
 }
 
