@@ -5,6 +5,7 @@
 
 mod access;
 mod concurrency;
+mod connections;
 mod errors;
 mod examples;
 mod force_curve;
