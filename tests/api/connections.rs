@@ -5,7 +5,7 @@
 //! hostile client would. Every wait is bounded; the assertions are on outcomes and on order,
 //! with generous bounds relative to the configured timeouts, never on tight wall-clock times.
 
-use crate::helpers::{Logs, expect_problem, spawn_app_with};
+use crate::helpers::{Logs, expect_problem, spawn_app_with, spawn_app_with_file_limit};
 use reqwest::Client;
 use std::time::{Duration, Instant};
 use tokio::io::{AsyncReadExt, AsyncWriteExt};
@@ -275,4 +275,50 @@ async fn a_partial_head_does_not_hold_shutdown() {
     );
     let (_, closed) = read_until_closed(&mut s, Duration::from_secs(5)).await;
     assert!(closed);
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn a_low_file_limit_lowers_the_cap_instead_of_exhausting_descriptors() {
+    // 200 files: the cap (1024 asked) is lowered to 200 - 64 reserved - 32 refusal slots.
+    let app = spawn_app_with_file_limit(200, &["--idle-timeout-s", "120"]).await;
+    let cap = 200 - 64 - 32;
+    // 300 connections, each one kept-alive request, all held open: more than the process
+    // could hold if the server accepted them all.
+    let mut held = Vec::new();
+    let (mut ok, mut refused, mut closed) = (0, 0, 0);
+    for _ in 0..300 {
+        let Ok(mut s) = TcpStream::connect(authority(&app.base)).await else {
+            closed += 1;
+            continue;
+        };
+        let mut buf = [0u8; 2048];
+        let answered = async {
+            s.write_all(b"GET /healthz HTTP/1.1\r\nHost: x\r\n\r\n")
+                .await?;
+            s.read(&mut buf).await
+        };
+        match tokio::time::timeout(Duration::from_secs(30), answered).await {
+            Ok(Ok(n)) if buf[..n].starts_with(b"HTTP/1.1 200") => ok += 1,
+            Ok(Ok(n)) if buf[..n].starts_with(b"HTTP/1.1 503") => refused += 1,
+            _ => closed += 1,
+        }
+        held.push(s);
+    }
+    assert_eq!(ok, cap, "served {ok}, refused {refused}, closed {closed}");
+    assert_eq!(ok + refused + closed, 300);
+    assert!(refused > 0, "no early 503 refusal");
+    // Once connections close, a fresh client is served again.
+    drop(held);
+    let client = fresh_client();
+    let mut served = false;
+    for _ in 0..100 {
+        if let Ok(r) = client.get(format!("{}/healthz", app.base)).send().await
+            && r.status().as_u16() == 200
+        {
+            served = true;
+            break;
+        }
+        tokio::time::sleep(Duration::from_millis(50)).await;
+    }
+    assert!(served, "/healthz never answered after connections closed");
 }
