@@ -422,6 +422,9 @@ async fn serve_connection(
                 if activity.is_idle() {
                     break;
                 }
+                timer
+                    .as_mut()
+                    .reset(tokio::time::Instant::now() + Duration::from_millis(100));
             }
             () = &mut timer => {
                 if draining && activity.is_idle() {
