@@ -13,7 +13,9 @@
 //! every path under `/v1/`; `/healthz`, `/readyz` and `/openapi.json` stay open (probes and
 //! tooling send no token), and `/metrics` stays open unless `--protect-metrics` is set. A
 //! missing or wrong key is answered 401 with a problem document and a `WWW-Authenticate:
-//! Bearer` challenge (RFC 6750, section 3).
+//! Bearer` challenge (RFC 6750, section 3). Wrong keys are throttled per client address
+//! (`--auth-failures-per-minute`, see [`require_key`]), and keys that are easy to guess are
+//! refused at start-up ([`weakness`]).
 //!
 //! **CORS.** With `RINGDRAG_CORS_ORIGINS` set, browsers on exactly those origins may call the
 //! service (preflight answered, `Authorization` and `Content-Type` allowed, `x-request-id` and
