@@ -489,7 +489,7 @@ async fn run(args: Args) -> Result<(), String> {
             Ok(r) if r.status().is_success() => kept_ms.push(t.elapsed().as_secs_f64() * 1e3),
             _ => kept_failed += 1,
         }
-        if tick % 5 == 0 {
+        if tick.is_multiple_of(5) {
             let t = Instant::now();
             match fresh_client.get(&health).send().await {
                 Ok(r) if r.status().is_success() => {

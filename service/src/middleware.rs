@@ -15,7 +15,7 @@
 //! 9. response cache, unless turned off ([`crate::cache`]): repeated identical computing
 //!    requests answered from memory;
 //! 10. panic safety net: a panicking handler answers a problem 500 instead of dropping the
-//!    connection.
+//!     connection.
 //!
 //! Metrics and tracing sit outside everything that can refuse a request, so that refusals
 //! (401, 413, 415, 422, 429, 503) are counted and logged like any answer. Keys come before the
