@@ -12,7 +12,9 @@
 //! interpolation error is far below the discretisation error of the rings themselves.
 
 use crate::design::MagnetStack;
+use crate::error::{ModelError, show};
 use crate::inductance::mutual_filaments_h;
+use crate::limits::Limits;
 use crate::transient::grid::RingGrid;
 
 /// Stacks with at most this many current-sheet ends are tabulated by direct evaluation.
@@ -72,7 +74,108 @@ pub struct RingAlignment {
     pub weights: [f64; 4],
 }
 
+/// Memory and work of one tabulation, estimated from the stack and the grid before anything
+/// is allocated (f64 arithmetic, so absurd designs cannot overflow the estimate).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TableCost {
+    /// f64 entries held at once (the table, plus the kernel table of long stacks).
+    pub entries: f64,
+    /// Kernel (loop-mutual) evaluations, interpolation terms counted as 1/16 of one.
+    pub evaluations: f64,
+}
+
+impl TableCost {
+    /// The cost of tabulating `stack` on `grid` over |zeta| <= `reach_m`, as [`FluxTable::new`]
+    /// would do it.
+    pub fn of(stack: &MagnetStack, grid: &RingGrid, reach_m: f64) -> Self {
+        let h = grid.ring_width_m / POINTS_PER_RING as f64;
+        let len = 2.0 * ((reach_m / h).ceil() + 3.0) + 1.0;
+        let layers = grid.layers as f64;
+        let ends = sheet_ends(stack);
+        let sheets = if stack.inner_radius_m > 0.0 { 2.0 } else { 1.0 };
+        let n_ends = ends.len() as f64;
+        if ends.len() <= DIRECT_ENDS {
+            Self {
+                entries: layers * len,
+                evaluations: layers * len * n_ends * sheets,
+            }
+        } else {
+            let span = ends.iter().fold(0.0_f64, |m, (e, _)| m.max(e.abs()));
+            let kernel = 2.0 * (((reach_m + span) / (0.25 * h)).ceil() + 4.0) + 1.0;
+            Self {
+                entries: layers * len + kernel,
+                evaluations: layers * sheets * (kernel + n_ends * len / 16.0),
+            }
+        }
+    }
+
+    /// Refuses a tabulation above `limits`, naming the design field that drives its size.
+    pub fn check(
+        &self,
+        stack: &MagnetStack,
+        grid: &RingGrid,
+        limits: &Limits,
+    ) -> Result<(), ModelError> {
+        let entries_over = !(self.entries <= limits.max_table_entries as f64);
+        let work_over = !(self.evaluations <= limits.max_kernel_evaluations as f64);
+        if !(entries_over || work_over) {
+            return Ok(());
+        }
+        let stack_length = stack.total_length_m();
+        // The table spans half the stack plus a margin of outer radii, on a spacing set by
+        // min(bore radius, magnet length): name what dominates.
+        let a = grid.layer_inner_m.first().copied().unwrap_or(0.0);
+        let b = grid.layer_outer_m.last().copied().unwrap_or(0.0);
+        let path = if stack.count > 1 && stack_length > 4.0 * stack.magnet_length_m {
+            "design.magnets.count"
+        } else if 0.5 * stack_length >= 5.0 * b || stack.magnet_length_m < a {
+            "design.magnets.length_m"
+        } else {
+            "design.tube.wall_thickness_m"
+        };
+        let what = if entries_over {
+            format!(
+                "the flux table would hold {} entries, above the service limit of {}",
+                show(self.entries),
+                limits.max_table_entries
+            )
+        } else {
+            format!(
+                "the flux table would need {} kernel evaluations, above the service limit of {}",
+                show(self.evaluations),
+                limits.max_kernel_evaluations
+            )
+        };
+        Err(ModelError::TooLarge {
+            path: path.into(),
+            message: format!(
+                "{what}: a stack {} m long (magnets {} m long, {} m across) is resolved on rings \
+                 {} m wide with {} radial layers; shorten the stack, use fewer or longer magnets, \
+                 or set a coarser options.ring_width_m",
+                show(stack_length),
+                show(stack.magnet_length_m),
+                show(2.0 * stack.outer_radius_m),
+                show(grid.ring_width_m),
+                grid.layers
+            ),
+        })
+    }
+}
+
 impl FluxTable {
+    /// Like [`FluxTable::new`], after checking its [`TableCost`] against `limits` (every
+    /// request-driven tabulation goes through here).
+    pub fn checked(
+        stack: &MagnetStack,
+        grid: &RingGrid,
+        reach_m: f64,
+        limits: &Limits,
+    ) -> Result<Self, ModelError> {
+        TableCost::of(stack, grid, reach_m).check(stack, grid, limits)?;
+        limits.cancel.check()?;
+        Ok(Self::new(stack, grid, reach_m))
+    }
+
     /// Tabulates the stack's dPhi/dzeta for the layers of `grid` over |zeta| <= `reach_m`
     /// (plus a few points for interpolation).
     ///
