@@ -201,10 +201,11 @@ impl JobRunner {
             result
         });
         let outcome = tokio::time::timeout_at(deadline, handle).await;
+        let cancelled = token.is_cancelled();
         // Past this point the work has ended or is abandoned: stop it either way.
         drop(cancel_on_drop);
         match outcome {
-            Ok(Ok(Err(_))) if token.is_cancelled() => {
+            Ok(Ok(Err(_))) if cancelled => {
                 // The work noticed the deadline before the timer did.
                 count(job, "timeout");
                 Err(ApiError::Timeout {
@@ -296,6 +297,23 @@ mod tests {
         // the queue wait for it) instead of a 503.
         let next = r.run("test", sleeper(1)).await;
         assert_eq!(next, Ok(1));
+    }
+
+    #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+    async fn a_refusal_is_not_a_timeout() {
+        let r = JobRunner::new(1, Duration::from_millis(50), Duration::from_secs(5));
+        let result: Result<(), ApiError> = r
+            .run("test", |_| {
+                Err(ApiError::from(ringdrag_model::ModelError::TooLarge {
+                    path: "design.magnets.count".into(),
+                    message: "test".into(),
+                }))
+            })
+            .await;
+        assert!(
+            matches!(result, Err(ApiError::JobTooLarge(_))),
+            "{result:?}"
+        );
     }
 
     #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
