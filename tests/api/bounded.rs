@@ -164,6 +164,21 @@ async fn red_team_requests_are_refused_or_bounded() {
     .await;
 }
 
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn subnormal_inputs_name_the_field() {
+    let app = crate::helpers::spawn_app().await;
+    let mut d = sample_design();
+    d["magnets"]["outer_diameter_m"] = json!(5e-324);
+    let r = app
+        .post_json("/v1/force-curve", &json!({"design": d}))
+        .await;
+    let problem = crate::helpers::expect_problem(r, 422).await;
+    assert!(
+        error_paths(&problem).contains(&"design.magnets.outer_diameter_m".to_string()),
+        "{problem}"
+    );
+}
+
 /// In-flight jobs of every kind, read from `/metrics`.
 async fn jobs_in_flight(app: &TestApp) -> f64 {
     let text = app.get("/metrics").await.text().await.expect("metrics");

@@ -11,11 +11,15 @@
 //! the magnet surface to the layer (at least half a layer, about dz/2): with K = 16 the cubic
 //! interpolation error is far below the discretisation error of the rings themselves.
 
+use crate::cancel::CancelToken;
 use crate::design::MagnetStack;
 use crate::error::{ModelError, show};
 use crate::inductance::mutual_filaments_h;
 use crate::limits::Limits;
 use crate::transient::grid::RingGrid;
+
+/// Kernel evaluations (about 0.1 us each) between two cancellation checks of a tabulation.
+const CANCEL_CHECK_POINTS: usize = 4096;
 
 /// Stacks with at most this many current-sheet ends are tabulated by direct evaluation.
 pub const DIRECT_ENDS: usize = 8;
@@ -172,8 +176,7 @@ impl FluxTable {
         limits: &Limits,
     ) -> Result<Self, ModelError> {
         TableCost::of(stack, grid, reach_m).check(stack, grid, limits)?;
-        limits.cancel.check()?;
-        Ok(Self::new(stack, grid, reach_m))
+        Self::tabulate(stack, grid, reach_m, &limits.cancel)
     }
 
     /// Tabulates the stack's dPhi/dzeta for the layers of `grid` over |zeta| <= `reach_m`
@@ -187,6 +190,25 @@ impl FluxTable {
     /// point is evaluated directly; beyond, M is first tabulated at a quarter of the spacing and
     /// each end's term is interpolated from it (cubic), which keeps long stacks linear in cost.
     pub fn new(stack: &MagnetStack, grid: &RingGrid, reach_m: f64) -> Self {
+        match Self::tabulate(stack, grid, reach_m, &CancelToken::never()) {
+            Ok(table) => table,
+            // A token that never fires never stops the tabulation.
+            Err(_) => Self {
+                spacing_m: grid.ring_width_m / POINTS_PER_RING as f64,
+                half_points: 0,
+                layers: grid.layers,
+                values: vec![0.0; grid.layers],
+            },
+        }
+    }
+
+    /// [`FluxTable::new`], checking `cancel` every [`CANCEL_CHECK_POINTS`] table points.
+    fn tabulate(
+        stack: &MagnetStack,
+        grid: &RingGrid,
+        reach_m: f64,
+        cancel: &CancelToken,
+    ) -> Result<Self, ModelError> {
         let h = grid.ring_width_m / POINTS_PER_RING as f64;
         let half_points = (reach_m / h).ceil() as i64 + 3;
         let len = (2 * half_points + 1) as usize;
@@ -202,6 +224,9 @@ impl FluxTable {
             let row = &mut values[l * len..(l + 1) * len];
             if ends.len() <= DIRECT_ENDS {
                 for (k, slot) in row.iter_mut().enumerate() {
+                    if k % CANCEL_CHECK_POINTS == 0 {
+                        cancel.check()?;
+                    }
                     let zeta = (k as i64 - half_points) as f64 * h;
                     let mut sum = 0.0;
                     for &(e, c) in &ends {
@@ -217,10 +242,16 @@ impl FluxTable {
                 let span = ends.iter().fold(0.0_f64, |m, (e, _)| m.max(e.abs()));
                 let half_m = ((reach_m + span) / hm).ceil() as i64 + 4;
                 for &(radius, sign) in &sheets {
-                    let kernel: Vec<f64> = (-half_m..=half_m)
-                        .map(|n| mutual_filaments_h(radius, r, n as f64 * hm))
-                        .collect();
+                    cancel.check()?;
+                    let mut kernel = Vec::with_capacity((2 * half_m + 1).max(0) as usize);
+                    for n in -half_m..=half_m {
+                        if n % CANCEL_CHECK_POINTS as i64 == 0 {
+                            cancel.check()?;
+                        }
+                        kernel.push(mutual_filaments_h(radius, r, n as f64 * hm));
+                    }
                     for &(e, c) in &ends {
+                        cancel.check()?;
                         // zeta_k - e = (4 (k - half_points) - e / hm) hm: one fraction per end.
                         let s0 = -e / hm;
                         let base = s0.floor();
@@ -243,12 +274,12 @@ impl FluxTable {
                 }
             }
         }
-        Self {
+        Ok(Self {
             spacing_m: h,
             half_points,
             layers: grid.layers,
             values,
-        }
+        })
     }
 
     /// Table spacing h, m.
