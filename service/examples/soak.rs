@@ -235,7 +235,7 @@ fn heavy_body(n: u64) -> Vec<u8> {
     serde_json::to_vec(&body).unwrap_or_default()
 }
 
-/// The work-bomb requests of issue 14, in turn.
+/// The work-bomb requests of issue 14, in turn, each a little different (never a cache hit).
 fn pathological_body(n: u64) -> (&'static str, Value) {
     match n % 2 {
         0 => {
@@ -243,13 +243,16 @@ fn pathological_body(n: u64) -> (&'static str, Value) {
                 serde_json::from_str(include_str!("../../examples/force-curve-copper-drop.json"))
                     .unwrap_or(Value::Null);
             body["design"]["magnets"]["outer_diameter_m"] = json!(0.012999999999);
+            // A slightly different tube each time, so that the cache cannot answer.
+            body["design"]["tube"]["length_m"] = json!(0.3 + 1e-6 * (n % 100_000) as f64);
             ("/v1/force-curve", body)
         }
         _ => (
             "/v1/simulate",
             json!({"design":{"magnets":{"outer_diameter_m":1e-06,"length_m":0.0005,"count":1,
                 "grade":"N42"},"tube":{"inner_diameter_m":0.002,"wall_thickness_m":0.001,
-                "length_m":0.001,"material":"copper-c12200"},"load":{"applied_force_n":100.0}},
+                "length_m":0.001,"material":"copper-c12200"},
+                "load":{"applied_force_n":100.0 + 1e-3 * (n % 100_000) as f64}},
                 "fidelity":"auto","start":{"position_m":-1.0,"speed_m_per_s":0.0}}),
         ),
     }
