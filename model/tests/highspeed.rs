@@ -104,8 +104,8 @@ fn spectral_force_matches_the_exact_tube_integral_at_refined_resolution() {
         let s = SteadySolver::new(&design(&c), Some(REFINED_LAYERS)).expect("solver");
         let name = &c.name;
         // source: the fixture (exact integral, Partovi & Morris 2006); 0.5 %: the accuracy
-        // asked of the steady solver (PHYSICS sec. 7 / issue 15), wider than the fixture's own
-        // 1e-11 quadrature tolerance by far.
+        // asked of the steady solver and the ring circuit (common practice), far wider than
+        // the fixture's own 1e-11 quadrature tolerance.
         let damping = s.damping_n_s_per_m();
         assert!(
             rel(damping, c.damping_n_s_per_m) < 0.005,
