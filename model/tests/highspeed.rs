@@ -261,7 +261,7 @@ fn steady_fall_speed_and_heat_per_metre_match_outside_values() {
         .map(|i| 0.5 * (p[i] + p[i + 1]) * (t[i + 1] - t[i]))
         .sum();
     let per_metre = heat / (x[i1] - x[i0]);
-    // 0.5 %, as above.
+    // source: energy conservation at constant speed (common practice); 0.5 %, as above.
     assert!(
         rel(per_metre, weight) < 0.005,
         "heat per metre {per_metre} vs weight {weight}"

@@ -258,6 +258,8 @@ proptest! {
         flipped.magnets.remanence_t = -d.magnets.remanence_t;
         let f = SteadySolver::new(&d, None).expect("solver").force_n(speed);
         let g = SteadySolver::new(&flipped, None).expect("solver").force_n(speed);
+        // Force is quadratic in the magnetisation (source: the field is linear in it; common
+        // practice; 1e-12 rounding), and always brakes (source: dissipation, common practice).
         prop_assert!((f - g).abs() <= 1e-12 * f.abs());
         prop_assert!(f > 0.0);
     }
@@ -270,6 +272,8 @@ proptest! {
         let v = 0.01;
         let f = SteadySolver::new(&d, None).expect("solver").force_n(v);
         let g = SteadySolver::new(&better, None).expect("solver").force_n(v);
+        // source: F ~ sigma at low speed (Levin, da Silveira & Rizzato, Am. J. Phys. 74, 815,
+        // 2006).
         prop_assert!(g > f);
     }
 }
