@@ -20,6 +20,7 @@ pub mod jobs;
 pub mod middleware;
 pub mod negotiate;
 pub mod plot;
+pub mod priority;
 pub mod problem;
 pub mod ratelimit;
 pub mod state;

@@ -24,6 +24,8 @@ fn main() -> anyhow::Result<()> {
         return Ok(());
     }
     telemetry::init_tracing(config.log_format)?;
+    ringdrag_service::priority::init_compute_pool()
+        .context("cannot start the compute thread pool")?;
     let runtime = tokio::runtime::Builder::new_multi_thread()
         .enable_all()
         .build()
