@@ -21,6 +21,9 @@ pub struct Limits {
     pub max_radial_layers: usize,
     /// Most points in one sweep.
     pub max_sweep_points: usize,
+    /// Largest band storage of one factorised ring-circuit window matrix, entries (it also
+    /// bounds the work of one time step to about 4x this many multiply-adds).
+    pub max_band_entries: usize,
 }
 
 impl Default for Limits {
@@ -33,6 +36,7 @@ impl Default for Limits {
             max_samples: 20_000,
             max_radial_layers: 32,
             max_sweep_points: 10_000,
+            max_band_entries: crate::transient::MAX_BAND_ENTRIES,
         }
     }
 }
