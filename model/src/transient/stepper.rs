@@ -161,12 +161,15 @@ impl<'a> Stepper<'a> {
                 let s = x_m / dz - 0.5;
                 let mut lo = (s - half_length_m / dz).ceil() as i64;
                 let mut hi = (s + half_length_m / dz).floor() as i64;
-                if hi - lo + 1 > self.max_rings as i64 {
-                    hi = lo + self.max_rings as i64 - 1;
-                }
+                // Clip to the tube first: the capacity of a finite tube's window is capped at
+                // its ring count, and capping an unclipped window that reaches beyond both ends
+                // would keep rings behind the stack and drop those around it.
                 if finite {
                     lo = lo.max(0);
                     hi = hi.min(self.grid.rings as i64 - 1);
+                }
+                if hi - lo + 1 > self.max_rings as i64 {
+                    hi = lo + self.max_rings as i64 - 1;
                 }
                 if hi < lo {
                     (lo, 0)
