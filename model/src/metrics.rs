@@ -132,11 +132,11 @@ pub struct SteadyPair {
 }
 
 impl SteadyPair {
-    /// Both solvers for `design` at the default resolution.
-    pub fn new(design: &Design) -> Result<Self, ModelError> {
+    /// Both solvers for `design` at the default resolution, within the work `limits`.
+    pub fn new(design: &Design, limits: &Limits) -> Result<Self, ModelError> {
         Ok(Self {
-            solver: SteadySolver::new(design, None)?,
-            companion: SteadySolver::companion(design, None)?,
+            solver: SteadySolver::new_within(design, None, limits)?,
+            companion: SteadySolver::companion(design, None, limits)?,
         })
     }
 }
@@ -157,7 +157,7 @@ pub fn evaluate_estimated(
     let pair = match solvers {
         Some(p) => Some(p),
         None if needs_steady => {
-            own = SteadyPair::new(design)?;
+            own = SteadyPair::new(design, limits)?;
             Some(&own)
         }
         None => None,
@@ -185,7 +185,7 @@ fn evaluate_with(
     let steady: Option<SteadyMetrics> = if metrics.iter().any(|m| m.needs_steady()) {
         let fine = match solver {
             Some(s) => s.metrics(design),
-            None => SteadySolver::new(design, None)?.metrics(design),
+            None => SteadySolver::new_within(design, None, limits)?.metrics(design),
         };
         if let Some(c) = companion {
             estimate = Some(crate::spectral::metrics_change(&fine, &c.metrics(design)));
