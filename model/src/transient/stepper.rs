@@ -161,9 +161,8 @@ impl<'a> Stepper<'a> {
                 let s = x_m / dz - 0.5;
                 let mut lo = (s - half_length_m / dz).ceil() as i64;
                 let mut hi = (s + half_length_m / dz).floor() as i64;
-                // Clip to the tube first: the capacity of a finite tube's window is capped at
-                // its ring count, and capping an unclipped window that reaches beyond both ends
-                // would keep rings behind the stack and drop those around it.
+                // Clip to the tube first, then to the capacity: capping first could leave a
+                // window wider than the tube entirely outside it (no current at all).
                 if finite {
                     lo = lo.max(0);
                     hi = hi.min(self.grid.rings as i64 - 1);
