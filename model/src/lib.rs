@@ -32,6 +32,7 @@ pub mod spectral;
 pub mod stroke;
 pub mod sweep;
 pub mod symeig;
+pub mod targets;
 pub mod tolerance;
 pub mod transient;
 

@@ -1,6 +1,7 @@
 //! Named scalar metrics of a design, for sweeps and sizing: every scalar of the steady force
 //! curve and of the stroke summary, by the names the HTTP contract uses.
 
+use crate::caution::{Caution, CautionKind, push_unique, steady_load_cautions};
 use crate::design::Design;
 use crate::error::ModelError;
 use crate::limits::Limits;
@@ -57,6 +58,15 @@ pub enum Metric {
     /// Relative energy-ledger imbalance of the stroke.
     #[serde(rename = "energy_balance_error")]
     EnergyBalanceError,
+    /// Speed at the end stop (the landing speed), m/s (null if the stack never gets there).
+    #[serde(rename = "landing_speed_m_per_s")]
+    LandingSpeed,
+    /// Time from the start to the end stop, s (null if never).
+    #[serde(rename = "stroke_time_s")]
+    StrokeTime,
+    /// Largest speed before the stack centre reaches the entry, m/s.
+    #[serde(rename = "max_speed_before_entry_m_per_s")]
+    MaxSpeedBeforeEntry,
 }
 
 impl Metric {
@@ -78,6 +88,9 @@ impl Metric {
             Self::Heat => "heat_j",
             Self::TubeTemperatureRise => "tube_temperature_rise_k",
             Self::EnergyBalanceError => "energy_balance_error",
+            Self::LandingSpeed => "landing_speed_m_per_s",
+            Self::StrokeTime => "stroke_time_s",
+            Self::MaxSpeedBeforeEntry => "max_speed_before_entry_m_per_s",
         }
     }
 
@@ -93,6 +106,9 @@ impl Metric {
                 | Self::Heat
                 | Self::TubeTemperatureRise
                 | Self::EnergyBalanceError
+                | Self::LandingSpeed
+                | Self::StrokeTime
+                | Self::MaxSpeedBeforeEntry
         )
     }
 
@@ -109,6 +125,16 @@ impl Metric {
     }
 }
 
+/// The values of `metrics` for one design, with the cautions that computing them decided.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Evaluation {
+    /// The values in the order asked; None where a metric does not exist.
+    pub values: Vec<Option<f64>>,
+    /// The design's cautions and those of the results (runaway, margin against it, heating,
+    /// numerical remarks), without the standing safety caution.
+    pub cautions: Vec<Caution>,
+}
+
 /// The values of `metrics` for one design, in the order asked. A steady solver built for the
 /// same magnets and tube may be passed in to be reused.
 pub fn evaluate(
@@ -118,20 +144,52 @@ pub fn evaluate(
     limits: &Limits,
     solver: Option<&SteadySolver>,
 ) -> Result<Vec<Option<f64>>, ModelError> {
+    evaluate_with_cautions(design, metrics, stroke, limits, solver).map(|e| e.values)
+}
+
+/// Like [`evaluate`], with the cautions of the design and of the results: the same cautions
+/// the force-curve and simulate endpoints give for this design, decided by the same functions
+/// ([`crate::caution::steady_load_cautions`], the stroke's own).
+pub fn evaluate_with_cautions(
+    design: &Design,
+    metrics: &[Metric],
+    stroke: &StrokeOptions,
+    limits: &Limits,
+    solver: Option<&SteadySolver>,
+) -> Result<Evaluation, ModelError> {
+    let mut cautions: Vec<Caution> = Vec::new();
+    for c in &design.cautions {
+        push_unique(&mut cautions, c.clone());
+    }
     let steady: Option<SteadyMetrics> = if metrics.iter().any(|m| m.needs_steady()) {
-        Some(match solver {
+        let m = match solver {
             Some(s) => s.metrics(design),
             None => SteadySolver::new(design, None)?.metrics(design),
-        })
+        };
+        for c in steady_load_cautions(
+            m.drive_force_n,
+            m.peak_force_n,
+            m.critical_speed_m_per_s,
+            m.terminal_speed_m_per_s,
+        ) {
+            push_unique(&mut cautions, c);
+        }
+        Some(m)
     } else {
         None
     };
     let summary: Option<StrokeSummary> = if metrics.iter().any(|m| m.needs_stroke()) {
-        Some(crate::transient::simulate_stroke(design, stroke, limits)?.summary)
+        let run = crate::transient::simulate_stroke(design, stroke, limits)?;
+        for c in run.cautions {
+            if c.kind != CautionKind::Safety {
+                push_unique(&mut cautions, c);
+            }
+        }
+        Some(run.summary)
     } else {
         None
     };
-    Ok(metrics
+    let values = metrics
         .iter()
         .map(|m| {
             let s = steady.as_ref();
@@ -152,8 +210,12 @@ pub fn evaluate(
                 Metric::Heat => t.map(|t| t.heat_j),
                 Metric::TubeTemperatureRise => t.and_then(|t| t.tube_temperature_rise_k),
                 Metric::EnergyBalanceError => t.map(|t| t.energy_balance_error),
+                Metric::LandingSpeed => t.and_then(|t| t.landing_speed_m_per_s),
+                Metric::StrokeTime => t.and_then(|t| t.stroke_time_s),
+                Metric::MaxSpeedBeforeEntry => t.and_then(|t| t.max_speed_before_entry_m_per_s),
             }
             .filter(|x| x.is_finite())
         })
-        .collect())
+        .collect();
+    Ok(Evaluation { values, cautions })
 }

@@ -1,7 +1,7 @@
 //! Sweeps, inverse sizing and tolerance bands, each checked against separate direct solves.
 
 use ringdrag_model::metrics::Metric;
-use ringdrag_model::sizing::{SizeRequest, SizeTarget, size};
+use ringdrag_model::sizing::{Seek, SizeRequest, SizeTarget, size};
 use ringdrag_model::spectral::{SteadySolver, force_curve};
 use ringdrag_model::sweep::{SweepAxis, SweepPlan};
 use ringdrag_model::tolerance::{Tolerances, bands};
@@ -157,6 +157,8 @@ fn wall_request(hot: Option<f64>) -> SizeRequest {
         safety_factor: 1.25,
         hot_temperature_c: hot,
         stroke: StrokeOptions::default(),
+        seek: Seek::Smallest,
+        tolerances: None,
     }
 }
 

@@ -30,7 +30,7 @@
 
 use crate::api::force_curve::check_design;
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
-use crate::api::simulate::{StartState, check_stroke_setup};
+use crate::api::simulate::{StartState, check_stop, check_stroke_setup};
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
 use crate::plot::{self, PlotAxis};
@@ -202,6 +202,12 @@ pub struct SweepRequest {
     /// Fidelity of the strokes of stroke metrics (as in `/v1/simulate`).
     #[serde(default)]
     pub fidelity: Fidelity,
+    /// Where the load meets its end stop in the strokes of stroke metrics and targets: the
+    /// position of the stack centre, m; default: the tube's far end (`tube.length_m`, which
+    /// follows a varied tube length).
+    #[serde(default)]
+    #[schema(minimum = -100.0, maximum = 100.0)]
+    pub stop_position_m: Option<f64>,
 }
 
 /// Adds the model's validation of a base design to `errors`, leaving out problems of the
@@ -261,6 +267,7 @@ impl SweepRequest {
             &mut errors,
             &mut too_large,
         );
+        check_stop(&self.start, self.stop_position_m, &mut errors);
         let mut axes = Vec::with_capacity(self.vary.len());
         for (i, axis) in self.vary.iter().enumerate() {
             match axis {
@@ -314,6 +321,8 @@ impl SweepRequest {
             samples: 2,
             ring_width_m: None,
             radial_layers: None,
+            stop_position_m: self.stop_position_m,
+            run_out: false,
         };
         let model = composite_model(&self.metrics, self.fidelity);
         let plan = SweepPlan::new(self.design, axes, self.metrics, stroke, limits.clone())?;
