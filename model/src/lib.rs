@@ -26,6 +26,7 @@ pub mod materials;
 pub mod metrics;
 pub mod quadrature;
 pub mod report;
+pub mod selection;
 pub mod sizing;
 pub mod spec;
 pub mod spectral;

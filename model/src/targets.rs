@@ -325,6 +325,11 @@ impl Judge {
         self.safety_factor
     }
 
+    /// The hot condition, C.
+    pub fn hot_temperature_c(&self) -> Option<f64> {
+        self.hot_temperature_c
+    }
+
     /// The stroke settings.
     pub fn stroke(&self) -> &StrokeOptions {
         &self.stroke
