@@ -8,11 +8,12 @@
 //! is done, keeping memory bounded). A point that fails (an invalid design at that corner of
 //! the grid, say) carries its error; the others still arrive.
 
+use crate::caution::Caution;
 use crate::design::Design;
 use crate::designpath;
 use crate::error::ModelError;
 use crate::limits::Limits;
-use crate::metrics::{Metric, evaluate};
+use crate::metrics::{Evaluation, Metric, evaluate_with_cautions};
 use crate::spec::DesignSpec;
 use crate::spectral::SteadySolver;
 use crate::stroke::StrokeOptions;
@@ -64,6 +65,9 @@ pub struct SweepPoint {
     pub metrics: BTreeMap<String, Option<f64>>,
     /// Why the point failed, or null.
     pub error: Option<String>,
+    /// Cautions of this point's design and results (runaway, clearance, magnet temperature...;
+    /// no standing caution), decided as on every other endpoint.
+    pub cautions: Vec<Caution>,
 }
 
 /// Fields that leave the steady solver unchanged: the load (it only sets the driving
@@ -140,6 +144,19 @@ impl SweepPlan {
                 return Err(ModelError::field(
                     format!("vary[{i}].values[{j}]"),
                     "must be a finite number",
+                ));
+            }
+            if designpath::is_integer_path(&axis.path)
+                && let Some(v) = axis.values.iter().find(|v| v.fract() != 0.0)
+            {
+                return Err(ModelError::field(
+                    format!("vary[{i}]"),
+                    format!(
+                        "{} takes whole numbers only; {} is not one (for a range, choose from, to \
+                         and steps so that every step is whole)",
+                        designpath::normalise(&axis.path),
+                        crate::error::show(*v)
+                    ),
                 ));
             }
             points = points.saturating_mul(axis.values.len());
@@ -234,7 +251,7 @@ impl SweepPlan {
         Design::from_spec(&spec)
     }
 
-    fn point(&self, index: usize, values: Result<Vec<Option<f64>>, ModelError>) -> SweepPoint {
+    fn point(&self, index: usize, values: Result<Evaluation, ModelError>) -> SweepPoint {
         let inputs = self
             .inputs(index)
             .into_iter()
@@ -248,9 +265,10 @@ impl SweepPlan {
                     .metrics
                     .iter()
                     .map(|m| m.name().to_string())
-                    .zip(v)
+                    .zip(v.values)
                     .collect(),
                 error: None,
+                cautions: v.cautions,
             },
             Err(e) => SweepPoint {
                 index,
@@ -261,6 +279,7 @@ impl SweepPlan {
                     .map(|m| (m.name().to_string(), None))
                     .collect(),
                 error: Some(e.to_string()),
+                cautions: Vec::new(),
             },
         }
     }
@@ -313,7 +332,7 @@ impl SweepPlan {
                 } else {
                     None
                 };
-                evaluate(
+                evaluate_with_cautions(
                     &design,
                     &self.metrics,
                     &self.stroke,

@@ -5,6 +5,7 @@
 
 mod access;
 mod concurrency;
+mod configurator;
 mod errors;
 mod examples;
 mod force_curve;

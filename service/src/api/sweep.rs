@@ -29,7 +29,7 @@
 //!   the other varied fields (see [`crate::plot::sweep_svg`]).
 
 use crate::api::force_curve::check_design;
-use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
+use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions, field_number};
 use crate::api::simulate::{StartState, check_stop, check_stroke_setup};
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
@@ -342,8 +342,9 @@ impl SweepRequest {
 pub struct SweepAxisDto {
     /// Dotted path of the varied field, as requested.
     pub path: String,
-    /// Values the field takes, in the field's unit.
-    pub values: Vec<f64>,
+    /// Values the field takes, in the field's unit; integers for integer fields.
+    #[schema(value_type = Vec<f64>)]
+    pub values: Vec<serde_json::Number>,
 }
 
 /// One point of a sweep.
@@ -352,7 +353,9 @@ pub struct SweepPointDto {
     /// Position of the point in the grid: row-major over `axes` as the response lists them
     /// (the last axis fastest).
     pub index: u64,
-    /// Value of each varied field at this point, by path as requested.
+    /// Value of each varied field at this point, by path as requested; integer fields
+    /// (`magnets.count`) as integers.
+    #[serde(serialize_with = "whole_inputs")]
     pub inputs: BTreeMap<String, f64>,
     /// Each requested metric by name; null where it does not exist (no terminal speed when the
     /// brake cannot hold the load, no exit time when the stack never exits) or the point
@@ -361,6 +364,28 @@ pub struct SweepPointDto {
     /// Why the point failed (for example a magnet wider than the bore at this corner of the
     /// grid), or null.
     pub error: Option<String>,
+    /// This point's cautions as text (runaway, margin against it, clearance, magnet
+    /// temperature, heating...), decided as on `/v1/force-curve` and `/v1/simulate`; the
+    /// standing safety caution is the response's, not repeated here.
+    pub cautions: Vec<String>,
+    /// The kinds of those cautions, in the same order (e.g. `runaway`).
+    pub caution_kinds: Vec<CautionKind>,
+}
+
+/// Writes the inputs of integer fields (`magnets.count`) as JSON integers.
+fn whole_inputs<S: serde::Serializer>(
+    inputs: &BTreeMap<String, f64>,
+    serializer: S,
+) -> Result<S::Ok, S::Error> {
+    use serde::ser::SerializeMap;
+    let mut map = serializer.serialize_map(Some(inputs.len()))?;
+    for (k, v) in inputs {
+        match field_number(*v, designpath::is_integer_path(k)) {
+            Some(n) => map.serialize_entry(k, &n)?,
+            None => map.serialize_entry(k, v)?,
+        }
+    }
+    map.end()
 }
 
 impl From<SweepPoint> for SweepPointDto {
@@ -375,6 +400,8 @@ impl From<SweepPoint> for SweepPointDto {
                 .map(|(k, v)| (k, v.filter(|x| x.is_finite())))
                 .collect(),
             error: p.error,
+            caution_kinds: p.cautions.iter().map(|c| c.kind).collect(),
+            cautions: p.cautions.into_iter().map(|c| c.message).collect(),
         }
     }
 }
@@ -451,7 +478,11 @@ fn axes_dto(plan: &SweepPlan) -> Vec<SweepAxisDto> {
         .iter()
         .map(|a| SweepAxisDto {
             path: a.path.clone(),
-            values: a.values.clone(),
+            values: a
+                .values
+                .iter()
+                .filter_map(|v| field_number(*v, designpath::is_integer_path(&a.path)))
+                .collect(),
         })
         .collect()
 }
