@@ -164,7 +164,7 @@ pub fn evaluate_with_cautions(
     let steady: Option<SteadyMetrics> = if metrics.iter().any(|m| m.needs_steady()) {
         let m = match solver {
             Some(s) => s.metrics(design),
-            None => SteadySolver::new(design, None)?.metrics(design),
+            None => SteadySolver::new_within(design, None, limits)?.metrics(design),
         };
         for c in steady_load_cautions(
             m.drive_force_n,

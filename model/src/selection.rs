@@ -379,6 +379,12 @@ impl SelectionPlan {
         })
     }
 
+    /// The same plan under the job's cancellation token.
+    pub fn with_cancel(mut self, cancel: crate::cancel::CancelToken) -> Self {
+        self.judge = self.judge.with_cancel(cancel);
+        self
+    }
+
     /// Number of combinations.
     pub fn len(&self) -> usize {
         self.combos.len()

@@ -105,6 +105,7 @@ pub struct SizeResult {
 struct Search<'a> {
     req: &'a SizeRequest,
     keep_going: &'a (dyn Fn() -> bool + Sync),
+    limits: &'a Limits,
     judge: Judge,
     evaluations: usize,
 }
@@ -120,6 +121,7 @@ impl Search<'_> {
         if !(self.keep_going)() {
             return Err(ModelError::Cancelled);
         }
+        self.limits.cancel.check()?;
         self.evaluations += 1;
         let spec = self.spec_at(x)?;
         self.judge.judge(&spec, None, self.keep_going)
@@ -171,6 +173,7 @@ pub fn size_while(
     let mut search = Search {
         req,
         keep_going,
+        limits,
         judge,
         evaluations: 0,
     };

@@ -310,6 +310,13 @@ impl Judge {
         })
     }
 
+    /// The same judge under the job's cancellation token (checked between conditions and
+    /// inside every solver).
+    pub fn with_cancel(mut self, cancel: crate::cancel::CancelToken) -> Self {
+        self.limits = self.limits.with_cancel(cancel);
+        self
+    }
+
     /// The targets.
     pub fn bounds(&self) -> &[Bound] {
         &self.bounds
@@ -397,7 +404,7 @@ impl Judge {
             .into_par_iter()
             .enumerate()
             .map(|(i, (corner, hot, design))| {
-                if !keep_going() {
+                if !keep_going() || self.limits.cancel.check().is_err() {
                     return ConditionResult {
                         corner,
                         hot,
@@ -434,6 +441,7 @@ impl Judge {
         if !keep_going() {
             return Err(ModelError::Cancelled);
         }
+        self.limits.cancel.check()?;
         self.verdict(results)
     }
 

@@ -886,6 +886,8 @@ mod tests {
             inputs: [("a".to_string(), x)].into_iter().collect(),
             metrics: [("m".to_string(), y)].into_iter().collect(),
             error: None,
+            cautions: Vec::new(),
+            caution_kinds: Vec::new(),
         };
         let pts = [
             point(3.0, Some(3.0)),

@@ -30,7 +30,6 @@ use ringdrag_model::tolerance::Tolerances;
 use ringdrag_model::{Caution, CautionKind, DesignSpec, Limits, ModelError, StrokeOptions};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
-use std::sync::Arc;
 use utoipa::ToSchema;
 
 fn sixty() -> f64 {
@@ -198,7 +197,7 @@ impl SelectedDesign {
 /// A validated selection.
 #[derive(Debug)]
 pub struct ValidSelect {
-    plan: SelectionPlan,
+    plan: Option<SelectionPlan>,
     objective: Objective,
     fidelity: Fidelity,
     needs_stroke: bool,
@@ -288,7 +287,7 @@ impl SelectRequest {
                 other => ApiError::from(other),
             })?;
         Ok(ValidSelect {
-            plan,
+            plan: Some(plan),
             objective: self.objective,
             fidelity: self.fidelity,
             needs_stroke,
@@ -338,13 +337,16 @@ pub async fn select_parts(
 ) -> Result<Response, ApiError> {
     negotiate::choose(&headers, &[Media::Json])?;
     let valid = request.validate(&state.limits)?;
-    let deadline = std::time::Instant::now() + state.jobs.timeout();
-    let _limits = Arc::clone(&state.limits);
     let selection = state
         .jobs
-        .run("select", move || {
-            let keep_going = move || std::time::Instant::now() < deadline;
-            Ok(valid.plan.run_while(&keep_going).map(|s| (s, valid))?)
+        .run("select", move |cancel| {
+            let mut valid = valid;
+            let plan = valid.plan.take();
+            let plan = plan
+                .ok_or_else(|| ApiError::Internal("plan lost".into()))?
+                .with_cancel(cancel.clone());
+            let keep_going = move || cancel.check().is_ok();
+            Ok(plan.run_while(&keep_going).map(|s| (s, valid))?)
         })
         .await?;
     let (s, valid) = selection;
