@@ -678,3 +678,34 @@ pub fn linear_drag_time(mass_kg: f64, force_n: f64, c: f64, v0: f64, distance_m:
     }
     (mass_kg / c) * ((force_n - c * v0) / (force_n - c * v1)).ln()
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_linear_drag_bound_matches_its_closed_forms() {
+        // Without drag: v = sqrt(v0^2 + 2 a d), t = (v - v0) / a (source: textbook kinematics,
+        // common practice).
+        let v = linear_drag_speed(2.0, 19.6133, 0.0, 0.0, 0.5);
+        assert!((v - (2.0 * 9.80665 * 0.5_f64).sqrt()).abs() < 1e-12, "{v}");
+        let t = linear_drag_time(2.0, 19.6133, 0.0, 0.0, 0.5);
+        assert!((t - v / 9.80665).abs() < 1e-12, "{t}");
+        // With drag: the distance x(v) = (m/c) [(v0 - v) + (F/c) ln((F - c v0)/(F - c v))] of
+        // the speed found is the distance asked, the speed stays below F/c, and the time
+        // equals (m/c) ln(F / (F - c v)) (source: closed form of linear drag with a constant
+        // force, common practice). Here m = 2 kg, F = 19.6 N, c = 10 N s/m: 0.5 m is about
+        // 1.3 lengths (m/c)(F/c) of the approach to the terminal speed.
+        let (m, f, c) = (2.0, 19.6133, 10.0);
+        let v = linear_drag_speed(m, f, c, 0.0, 0.5);
+        let x = (m / c) * (-v + (f / c) * (f / (f - c * v)).ln());
+        assert!((x - 0.5).abs() < 1e-9, "{x}");
+        assert!(v < f / c && v > 0.5 * f / c, "{v}");
+        let t = linear_drag_time(m, f, c, 0.0, 0.5);
+        assert!((t - (m / c) * (f / (f - c * v)).ln()).abs() < 1e-12);
+        assert!(
+            t > 0.5 / (f / c),
+            "slower than the terminal speed throughout"
+        );
+    }
+}
