@@ -68,3 +68,42 @@ pub fn push_unique(list: &mut Vec<Caution>, c: Caution) {
         list.push(c);
     }
 }
+
+/// Cautions on the load that a steady force-speed curve decides, the same on every endpoint:
+/// runaway when the net driving force `drive_n` exceeds the peak braking force `peak_n` (no
+/// terminal speed: a faster load brakes less beyond the critical speed; Partovi & Morris, Can.
+/// J. Phys. 84, 253, 2006, on the force peak), little margin against it when the terminal
+/// speed is above half the critical speed, and no steady motion when nothing drives the stack.
+pub fn steady_load_cautions(
+    drive_n: f64,
+    peak_n: f64,
+    critical_m_per_s: f64,
+    terminal_m_per_s: Option<f64>,
+) -> Vec<Caution> {
+    let mut out = Vec::new();
+    match terminal_m_per_s {
+        None => out.push(Caution::new(
+            CautionKind::Runaway,
+            format!(
+                "RUNAWAY: the driving force {drive_n:.4} N exceeds the peak braking force \
+                 {peak_n:.4} N (at {critical_m_per_s:.4} m/s). The brake cannot hold this load \
+                 at any speed; above the critical speed a faster load brakes less."
+            ),
+        )),
+        Some(_) if drive_n <= 0.0 => out.push(Caution::new(
+            CautionKind::ModelLimit,
+            "The load does not drive the stack (friction or an uphill incline exceeds the \
+             driving force): there is no steady motion, terminal speed 0.",
+        )),
+        Some(t) if t > 0.5 * critical_m_per_s => out.push(Caution::new(
+            CautionKind::Runaway,
+            format!(
+                "Terminal speed {t:.4} m/s is above half the critical speed \
+                 {critical_m_per_s:.4} m/s: little margin against runaway; a heavier or hotter \
+                 case may not be held."
+            ),
+        )),
+        Some(_) => {}
+    }
+    out
+}

@@ -27,12 +27,14 @@ pub mod materials;
 pub mod metrics;
 pub mod quadrature;
 pub mod report;
+pub mod selection;
 pub mod sizing;
 pub mod spec;
 pub mod spectral;
 pub mod stroke;
 pub mod sweep;
 pub mod symeig;
+pub mod targets;
 pub mod tolerance;
 pub mod transient;
 

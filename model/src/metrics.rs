@@ -1,6 +1,7 @@
 //! Named scalar metrics of a design, for sweeps and sizing: every scalar of the steady force
 //! curve and of the stroke summary, by the names the HTTP contract uses.
 
+use crate::caution::{Caution, CautionKind, push_unique, steady_load_cautions};
 use crate::design::Design;
 use crate::error::ModelError;
 use crate::limits::Limits;
@@ -57,6 +58,15 @@ pub enum Metric {
     /// Relative energy-ledger imbalance of the stroke.
     #[serde(rename = "energy_balance_error")]
     EnergyBalanceError,
+    /// Speed at the end stop (the landing speed), m/s (null if the stack never gets there).
+    #[serde(rename = "landing_speed_m_per_s")]
+    LandingSpeed,
+    /// Time from the start to the end stop, s (null if never).
+    #[serde(rename = "stroke_time_s")]
+    StrokeTime,
+    /// Largest speed before the stack centre reaches the entry, m/s.
+    #[serde(rename = "max_speed_before_entry_m_per_s")]
+    MaxSpeedBeforeEntry,
 }
 
 impl Metric {
@@ -78,6 +88,9 @@ impl Metric {
             Self::Heat => "heat_j",
             Self::TubeTemperatureRise => "tube_temperature_rise_k",
             Self::EnergyBalanceError => "energy_balance_error",
+            Self::LandingSpeed => "landing_speed_m_per_s",
+            Self::StrokeTime => "stroke_time_s",
+            Self::MaxSpeedBeforeEntry => "max_speed_before_entry_m_per_s",
         }
     }
 
@@ -93,6 +106,9 @@ impl Metric {
                 | Self::Heat
                 | Self::TubeTemperatureRise
                 | Self::EnergyBalanceError
+                | Self::LandingSpeed
+                | Self::StrokeTime
+                | Self::MaxSpeedBeforeEntry
         )
     }
 
@@ -109,6 +125,19 @@ impl Metric {
     }
 }
 
+/// The values of `metrics` for one design, with the cautions that computing them decided.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Evaluation {
+    /// The values in the order asked; None where a metric does not exist.
+    pub values: Vec<Option<f64>>,
+    /// The design's cautions and those of the results (runaway, margin against it, heating,
+    /// numerical remarks), without the standing safety caution.
+    pub cautions: Vec<Caution>,
+    /// Estimated relative numerical error of the values (the larger of the steady companion's
+    /// change and the stroke's own estimate), None when neither was measured.
+    pub error_estimate_relative: Option<f64>,
+}
+
 /// The values of `metrics` for one design, in the order asked. A steady solver built for the
 /// same magnets and tube may be passed in to be reused.
 pub fn evaluate(
@@ -118,7 +147,7 @@ pub fn evaluate(
     limits: &Limits,
     solver: Option<&SteadySolver>,
 ) -> Result<Vec<Option<f64>>, ModelError> {
-    Ok(evaluate_with(design, metrics, stroke, limits, solver, None)?.0)
+    Ok(evaluate_with(design, metrics, stroke, limits, solver, None)?.values)
 }
 
 /// A steady solver and its resolution companion ([`SteadySolver::companion`]), built once and
@@ -133,6 +162,10 @@ pub struct SteadyPair {
 
 impl SteadyPair {
     /// Both solvers for `design` at the default resolution, within the work `limits`.
+    ///
+    /// # Errors
+    /// [`ModelError::TooLarge`] above the work limits, [`ModelError::Cancelled`] when the
+    /// job's token fires.
     pub fn new(design: &Design, limits: &Limits) -> Result<Self, ModelError> {
         Ok(Self {
             solver: SteadySolver::new_within(design, None, limits)?,
@@ -141,17 +174,37 @@ impl SteadyPair {
     }
 }
 
-/// Like [`evaluate`], and the estimated relative numerical error of the values: the larger of
-/// the steady solver's ([`crate::spectral::metrics_change`]) and the stroke's
+/// Like [`evaluate`], with the cautions of the design and of the results: the same cautions
+/// the force-curve and simulate endpoints give for this design, decided by the same functions
+/// ([`crate::caution::steady_load_cautions`], the stroke's own). The estimate covers the
+/// stroke only (no steady companion is built); see [`evaluate_estimated`].
+///
+/// # Errors
+/// As the solvers: work limits, cancellation, a stroke that cannot run.
+pub fn evaluate_with_cautions(
+    design: &Design,
+    metrics: &[Metric],
+    stroke: &StrokeOptions,
+    limits: &Limits,
+    solver: Option<&SteadySolver>,
+) -> Result<Evaluation, ModelError> {
+    evaluate_with(design, metrics, stroke, limits, solver, None)
+}
+
+/// Like [`evaluate_with_cautions`], and the estimated relative numerical error of the values:
+/// the larger of the steady solver's ([`crate::spectral::metrics_change`]) and the stroke's
 /// (`error_estimate_relative` of the stroke), None when neither ran. A solver pair built for
 /// the same magnets and tube may be passed in to be reused.
+///
+/// # Errors
+/// As the solvers: work limits, cancellation, a stroke that cannot run.
 pub fn evaluate_estimated(
     design: &Design,
     metrics: &[Metric],
     stroke: &StrokeOptions,
     limits: &Limits,
     solvers: Option<&SteadyPair>,
-) -> Result<(Vec<Option<f64>>, Option<f64>), ModelError> {
+) -> Result<Evaluation, ModelError> {
     let needs_steady = metrics.iter().any(|m| m.needs_steady());
     let own;
     let pair = match solvers {
@@ -172,7 +225,7 @@ pub fn evaluate_estimated(
     )
 }
 
-/// The values, with an estimate from the steady companion when one is given.
+/// The values and cautions, with an estimate from the steady companion when one is given.
 fn evaluate_with(
     design: &Design,
     metrics: &[Metric],
@@ -180,26 +233,43 @@ fn evaluate_with(
     limits: &Limits,
     solver: Option<&SteadySolver>,
     companion: Option<&SteadySolver>,
-) -> Result<(Vec<Option<f64>>, Option<f64>), ModelError> {
+) -> Result<Evaluation, ModelError> {
     let mut estimate: Option<f64> = None;
+    let mut cautions: Vec<Caution> = Vec::new();
+    for c in &design.cautions {
+        push_unique(&mut cautions, c.clone());
+    }
     let steady: Option<SteadyMetrics> = if metrics.iter().any(|m| m.needs_steady()) {
-        let fine = match solver {
+        let m = match solver {
             Some(s) => s.metrics(design),
             None => SteadySolver::new_within(design, None, limits)?.metrics(design),
         };
         if let Some(c) = companion {
-            estimate = Some(crate::spectral::metrics_change(&fine, &c.metrics(design)));
+            estimate = Some(crate::spectral::metrics_change(&m, &c.metrics(design)));
         }
-        Some(fine)
+        for c in steady_load_cautions(
+            m.drive_force_n,
+            m.peak_force_n,
+            m.critical_speed_m_per_s,
+            m.terminal_speed_m_per_s,
+        ) {
+            push_unique(&mut cautions, c);
+        }
+        Some(m)
     } else {
         None
     };
     let summary: Option<StrokeSummary> = if metrics.iter().any(|m| m.needs_stroke()) {
-        let s = crate::transient::simulate_stroke(design, stroke, limits)?;
-        if let Some(e) = s.model.error_estimate_relative {
+        let run = crate::transient::simulate_stroke(design, stroke, limits)?;
+        if let Some(e) = run.model.error_estimate_relative {
             estimate = Some(estimate.map_or(e, |x| x.max(e)));
         }
-        Some(s.summary)
+        for c in run.cautions {
+            if c.kind != CautionKind::Safety {
+                push_unique(&mut cautions, c);
+            }
+        }
+        Some(run.summary)
     } else {
         None
     };
@@ -224,9 +294,16 @@ fn evaluate_with(
                 Metric::Heat => t.map(|t| t.heat_j),
                 Metric::TubeTemperatureRise => t.and_then(|t| t.tube_temperature_rise_k),
                 Metric::EnergyBalanceError => t.map(|t| t.energy_balance_error),
+                Metric::LandingSpeed => t.and_then(|t| t.landing_speed_m_per_s),
+                Metric::StrokeTime => t.and_then(|t| t.stroke_time_s),
+                Metric::MaxSpeedBeforeEntry => t.and_then(|t| t.max_speed_before_entry_m_per_s),
             }
             .filter(|x| x.is_finite())
         })
         .collect();
-    Ok((values, estimate.filter(|e| e.is_finite())))
+    Ok(Evaluation {
+        values,
+        cautions,
+        error_estimate_relative: estimate.filter(|e| e.is_finite()),
+    })
 }

@@ -1,102 +1,39 @@
-//! Inverse sizing: the smallest value of one design field that meets every target with a
-//! safety factor, at the worst of the cold and the hot condition.
+//! Inverse sizing: the smallest (or the largest) value of one design field that meets every
+//! target with a safety factor, at the worst condition.
 //!
-//! Targets and how the safety factor SF applies (the achieved value must beat the target by
-//! SF, in the safe direction):
-//! - `max_terminal_speed_m_per_s` T: terminal speed <= T / SF (runaway fails);
-//! - `max_exit_time_s` T: exit time <= T / SF (a stroke that never exits fails);
-//! - `min_exit_time_s` T: exit time >= T * SF;
-//! - `max_deceleration_m_per_s2` A: largest deceleration <= A / SF.
-//!
-//! Each target is checked with the tube and magnets at their job temperature (cold) and at
-//! `hot_temperature_c` (conductor resistivity up, remanence down: weaker braking, so speed
-//! limits bind hot while deceleration limits bind cold). The search samples the range,
-//! checks that feasibility switches once, then bisects to a relative width of 1e-6 of the
-//! range (integer fields: to the smallest whole number).
+//! Targets, the safety factor and the conditions (cold, hot, tolerance corners) are those of
+//! [`crate::targets`]: feasibility is decided at the worst condition, the worst tolerance
+//! corner, hot, for a speed limit. `Seek::Smallest` looks for the smallest feasible value (a
+//! wall, a magnet count, a tube length); `Seek::Largest` for the largest (the rated payload,
+//! the steepest incline, the longest stroke). The search samples the range, checks that
+//! feasibility switches once, then bisects to a relative width of 1e-6 of the range (integer
+//! fields: to the whole number; their range ends must be whole numbers).
 
 use crate::caution::{Caution, CautionKind, push_unique};
-use crate::design::Design;
 use crate::designpath;
 use crate::error::{ModelError, show};
 use crate::limits::Limits;
-use crate::metrics::{Metric, evaluate_estimated};
 use crate::report::{Discretisation, Fidelity, ModelInfo};
 use crate::spec::DesignSpec;
 use crate::stroke::StrokeOptions;
+use crate::targets::{Judge, Verdict};
+use crate::tolerance::Tolerances;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
-/// Targets a sized design must meet (at least one).
-#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+pub use crate::targets::{Achieved, Governing, SizeTarget};
+
+/// Which end of the feasible values a sizing looks for.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
 #[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
-#[serde(deny_unknown_fields)]
-pub struct SizeTarget {
-    /// Largest acceptable terminal speed, m/s.
-    #[serde(default)]
-    #[cfg_attr(feature = "schema", schema(exclusive_minimum = 0.0))]
-    pub max_terminal_speed_m_per_s: Option<f64>,
-    /// Longest acceptable stroke time (stack centre reaching the far end), s.
-    #[serde(default)]
-    #[cfg_attr(feature = "schema", schema(exclusive_minimum = 0.0))]
-    pub max_exit_time_s: Option<f64>,
-    /// Shortest acceptable stroke time, s.
-    #[serde(default)]
-    #[cfg_attr(feature = "schema", schema(exclusive_minimum = 0.0))]
-    pub min_exit_time_s: Option<f64>,
-    /// Largest acceptable deceleration, m/s^2.
-    #[serde(default)]
-    #[cfg_attr(feature = "schema", schema(exclusive_minimum = 0.0))]
-    pub max_deceleration_m_per_s2: Option<f64>,
-}
-
-/// One target in normalised form.
-#[derive(Debug, Clone, Copy)]
-struct Bound {
-    name: &'static str,
-    metric: Metric,
-    limit: f64,
-    upper: bool,
-}
-
-impl SizeTarget {
-    fn bounds(&self) -> Vec<Bound> {
-        let mut v = Vec::new();
-        let mut add = |name, metric, limit: Option<f64>, upper| {
-            if let Some(limit) = limit {
-                v.push(Bound {
-                    name,
-                    metric,
-                    limit,
-                    upper,
-                });
-            }
-        };
-        add(
-            "max_terminal_speed_m_per_s",
-            Metric::TerminalSpeed,
-            self.max_terminal_speed_m_per_s,
-            true,
-        );
-        add(
-            "max_exit_time_s",
-            Metric::ExitTime,
-            self.max_exit_time_s,
-            true,
-        );
-        add(
-            "min_exit_time_s",
-            Metric::ExitTime,
-            self.min_exit_time_s,
-            false,
-        );
-        add(
-            "max_deceleration_m_per_s2",
-            Metric::MaxDeceleration,
-            self.max_deceleration_m_per_s2,
-            true,
-        );
-        v
-    }
+#[serde(rename_all = "snake_case")]
+pub enum Seek {
+    /// The smallest value that meets every target (a wall, a magnet count, a tube length).
+    #[default]
+    Smallest,
+    /// The largest value that meets every target (the rated payload, the steepest incline,
+    /// the longest stroke).
+    Largest,
 }
 
 /// A sizing job.
@@ -118,10 +55,11 @@ pub struct SizeRequest {
     pub hot_temperature_c: Option<f64>,
     /// How strokes are run for time and deceleration targets.
     pub stroke: StrokeOptions,
+    /// Which end of the feasible values to find.
+    pub seek: Seek,
+    /// Manufacturing tolerances: every target is also checked at each corner, cold and hot.
+    pub tolerances: Option<Tolerances>,
 }
-
-/// Metrics of the sized design at one temperature.
-pub type Achieved = BTreeMap<String, Option<f64>>;
 
 /// The answer of a sizing job.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -129,7 +67,7 @@ pub type Achieved = BTreeMap<String, Option<f64>>;
 pub struct SizeResult {
     /// Whether some value in the range meets every target with the safety factor.
     pub feasible: bool,
-    /// The smallest such value (null when infeasible).
+    /// The smallest (or, seeking the largest, the largest) such value (null when infeasible).
     pub value: Option<f64>,
     /// When infeasible: the value in the range that comes closest.
     pub best_value: f64,
@@ -143,8 +81,19 @@ pub struct SizeResult {
     /// targets) or achieved / target (lower targets), at the worse temperature. Equals the
     /// requested safety factor at a tight optimum; below 1 means a target is missed.
     pub margin: f64,
-    /// The same ratio per target.
+    /// The same ratio per target, at its worst condition.
     pub margins: BTreeMap<String, f64>,
+    /// The ratio per target over the nominal design, cold and hot.
+    pub margins_nominal: BTreeMap<String, f64>,
+    /// The ratio per target over the tolerance corners, cold and hot (None without
+    /// tolerances).
+    pub margins_worst_corner: Option<BTreeMap<String, f64>>,
+    /// Where each target is tightest: the corner and the temperature.
+    pub governing: BTreeMap<String, Governing>,
+    /// Tolerance corners of the reported design that are not valid designs or failed.
+    pub failed_corners: Vec<String>,
+    /// Which end was sought.
+    pub seek: Seek,
     /// Designs evaluated during the search.
     pub evaluations: usize,
     /// Cautions, the standing safety caution first.
@@ -153,23 +102,11 @@ pub struct SizeResult {
     pub model: ModelInfo,
 }
 
-struct Evaluation {
-    /// Smallest ratio margin / safety factor minus one: >= 0 is feasible.
-    slack: f64,
-    margin: f64,
-    margins: BTreeMap<String, f64>,
-    cold: Achieved,
-    hot: Achieved,
-    /// Estimated relative numerical error of the metrics, cold and hot.
-    estimate: Option<f64>,
-}
-
 struct Search<'a> {
     req: &'a SizeRequest,
     keep_going: &'a (dyn Fn() -> bool + Sync),
     limits: &'a Limits,
-    bounds: Vec<Bound>,
-    metrics: Vec<Metric>,
+    judge: Judge,
     evaluations: usize,
 }
 
@@ -180,65 +117,14 @@ impl Search<'_> {
         Ok(spec)
     }
 
-    fn evaluate(&mut self, x: f64) -> Result<Evaluation, ModelError> {
+    fn evaluate(&mut self, x: f64) -> Result<Verdict, ModelError> {
         if !(self.keep_going)() {
             return Err(ModelError::Cancelled);
         }
         self.limits.cancel.check()?;
         self.evaluations += 1;
-        let cold = Design::from_spec(&self.spec_at(x)?)?;
-        let hot = match self.req.hot_temperature_c {
-            Some(t) => cold.at_temperatures(t, t),
-            None => cold.clone(),
-        };
-        let (vc, ec) =
-            evaluate_estimated(&cold, &self.metrics, &self.req.stroke, self.limits, None)?;
-        let (vh, eh) =
-            evaluate_estimated(&hot, &self.metrics, &self.req.stroke, self.limits, None)?;
-        let estimate = match (ec, eh) {
-            (Some(a), Some(b)) => Some(a.max(b)),
-            (a, b) => a.or(b),
-        };
-        let sf = self.req.safety_factor;
-        let mut margins = BTreeMap::new();
-        let mut margin = f64::INFINITY;
-        for b in &self.bounds {
-            let idx = self
-                .metrics
-                .iter()
-                .position(|m| *m == b.metric)
-                .unwrap_or(0);
-            let mut ratio = f64::INFINITY;
-            for v in [vc[idx], vh[idx]] {
-                let r = match (v, b.upper) {
-                    (Some(a), true) if a > 0.0 => b.limit / a,
-                    (Some(_), true) => f64::INFINITY,
-                    (Some(a), false) => a / b.limit,
-                    // No terminal speed (runaway) or no exit: an upper bound fails.
-                    (None, true) => 0.0,
-                    // Never exiting satisfies a minimum time.
-                    (None, false) => f64::INFINITY,
-                };
-                ratio = ratio.min(r);
-            }
-            margins.insert(b.name.to_string(), ratio);
-            margin = margin.min(ratio);
-        }
-        let named = |v: Vec<Option<f64>>| {
-            self.metrics
-                .iter()
-                .map(|m| m.name().to_string())
-                .zip(v)
-                .collect()
-        };
-        Ok(Evaluation {
-            slack: margin / sf - 1.0,
-            margin,
-            margins,
-            cold: named(vc),
-            hot: named(vh),
-            estimate,
-        })
+        let spec = self.spec_at(x)?;
+        self.judge.judge(&spec, None, self.keep_going)
     }
 }
 
@@ -262,71 +148,40 @@ pub fn size_while(
             "need finite vary.min < vary.max",
         ));
     }
-    if !(req.safety_factor.is_finite() && (1.0..=10.0).contains(&req.safety_factor)) {
-        return Err(ModelError::field(
-            "safety_factor",
-            "must be between 1 and 10",
-        ));
-    }
-    if let Some(t) = req.hot_temperature_c
-        && !(t.is_finite() && (-60.0..=400.0).contains(&t))
-    {
-        return Err(ModelError::field(
-            "hot_temperature_c",
-            "must be between -60 and 400 C",
-        ));
-    }
-    let bounds = req.target.bounds();
-    if bounds.is_empty() {
-        return Err(ModelError::field("target", "give at least one target"));
-    }
-    for b in &bounds {
-        if !(b.limit.is_finite() && b.limit > 0.0) {
-            return Err(ModelError::field(
-                format!("target.{}", b.name),
-                "must be a finite number above zero",
-            ));
+    if integer {
+        for (at, v) in [("vary.min", req.min), ("vary.max", req.max)] {
+            if v.fract() != 0.0 {
+                return Err(ModelError::field(
+                    at,
+                    format!(
+                        "{} takes whole numbers only; {} is not one",
+                        designpath::normalise(&req.path),
+                        show(v)
+                    ),
+                ));
+            }
         }
     }
-    let mut metrics: Vec<Metric> = vec![Metric::TerminalSpeed, Metric::Damping, Metric::PeakForce];
-    for b in &bounds {
-        if !metrics.contains(&b.metric) {
-            metrics.push(b.metric);
-        }
-    }
-    if bounds.iter().any(|b| b.metric.needs_stroke()) {
-        metrics.extend([
-            Metric::ExitTime,
-            Metric::MaxSpeed,
-            Metric::MaxDeceleration,
-            Metric::Heat,
-        ]);
-        metrics.dedup();
-        metrics.sort();
-        metrics.dedup();
-    }
+    let judge = Judge::new(
+        &req.target,
+        req.safety_factor,
+        req.hot_temperature_c,
+        req.tolerances.clone(),
+        req.stroke.clone(),
+        limits.clone(),
+    )?;
     let mut search = Search {
         req,
         keep_going,
         limits,
-        bounds,
-        metrics,
+        judge,
         evaluations: 0,
     };
     let mut cautions = vec![Caution::standing_safety()];
+    let largest = req.seek == Seek::Largest;
 
     // Sample the range.
-    let (lo, hi) = if integer {
-        (req.min.ceil(), req.max.floor())
-    } else {
-        (req.min, req.max)
-    };
-    if lo > hi {
-        return Err(ModelError::field(
-            "vary.min",
-            "the range holds no whole number",
-        ));
-    }
+    let (lo, hi) = (req.min, req.max);
     let samples = if integer {
         ((hi - lo) as usize + 1).min(9)
     } else {
@@ -342,7 +197,7 @@ pub fn size_while(
             if integer { x.round() } else { x }
         })
         .collect();
-    let mut evals: Vec<(f64, Option<Evaluation>)> = Vec::new();
+    let mut evals: Vec<(f64, Option<Verdict>)> = Vec::new();
     let mut errors = Vec::new();
     for &x in &xs {
         match search.evaluate(x) {
@@ -363,8 +218,12 @@ pub fn size_while(
             ),
         ));
     }
-    let feasible_at = |e: &Option<Evaluation>| e.as_ref().is_some_and(|e| e.slack >= 0.0);
-    let first = evals.iter().position(|(_, e)| feasible_at(e));
+    let feasible_at = |e: &Option<Verdict>| e.as_ref().is_some_and(|e| e.slack >= 0.0);
+    let pick = if largest {
+        evals.iter().rposition(|(_, e)| feasible_at(e))
+    } else {
+        evals.iter().position(|(_, e)| feasible_at(e))
+    };
     let switches = evals
         .windows(2)
         .filter(|w| feasible_at(&w[0].1) != feasible_at(&w[1].1))
@@ -373,14 +232,16 @@ pub fn size_while(
         cautions.push(Caution::new(
             CautionKind::Numerical,
             format!(
-                "Meeting the targets is not monotone in {} over the range: the smallest feasible value \
+                "Meeting the targets is not monotone in {} over the range: the {} feasible value \
                  is reported; check the neighbourhood.",
-                req.path
+                req.path,
+                if largest { "largest" } else { "smallest" }
             ),
         ));
     }
+    let edge = if largest { evals.len() - 1 } else { 0 };
 
-    let (feasible, x_final, eval_final) = match first {
+    let (feasible, x_final, eval_final) = match pick {
         None => {
             // Infeasible: report the value that comes closest.
             let (bx, _) = evals
@@ -392,72 +253,84 @@ pub fn size_while(
             let e = search.evaluate(bx)?;
             (false, bx, e)
         }
-        Some(0) => {
+        Some(i) if i == edge => {
+            let x = evals[i].0;
             cautions.push(Caution::new(
                 CautionKind::ModelLimit,
                 format!(
-                    "The smallest value of the range, {}, already meets every target.",
-                    show(lo)
+                    "The {} value of the range, {}, already meets every target.",
+                    if largest { "largest" } else { "smallest" },
+                    show(x)
                 ),
             ));
-            let e = search.evaluate(lo)?;
-            (true, lo, e)
+            let e = search.evaluate(x)?;
+            (true, x, e)
         }
         Some(i) => {
-            let (mut a, mut b) = (evals[i - 1].0, evals[i].0);
+            // `good` meets the targets, `bad` does not; bisect between them.
+            let mut good = evals[i].0;
+            let mut bad = if largest {
+                evals[i + 1].0
+            } else {
+                evals[i - 1].0
+            };
             let tol = if integer { 1.0 } else { 1e-6 * (hi - lo) };
-            while b - a > tol {
+            while (good - bad).abs() > tol {
                 let mid = if integer {
-                    ((a + b) / 2.0).floor()
+                    ((good + bad) / 2.0).floor()
                 } else {
-                    0.5 * (a + b)
+                    0.5 * (good + bad)
                 };
-                if mid <= a || mid >= b {
+                if mid <= good.min(bad) || mid >= good.max(bad) {
                     break;
                 }
                 match search.evaluate(mid) {
-                    Ok(e) if e.slack >= 0.0 => b = mid,
+                    Ok(e) if e.slack >= 0.0 => good = mid,
                     Err(ModelError::Cancelled) => return Err(ModelError::Cancelled),
-                    _ => a = mid,
+                    _ => bad = mid,
                 }
             }
-            let e = search.evaluate(b)?;
-            (true, b, e)
+            let e = search.evaluate(good)?;
+            (true, good, e)
         }
     };
     if !feasible {
         cautions.push(Caution::new(
             CautionKind::ModelLimit,
             format!(
-                "No value of {} in [{}, {}] meets the targets with safety factor {}; the closest is {} \
-                 (achieved safety factor {:.3}).",
+                "No value of {} in [{}, {}] meets the targets with safety factor {} at every \
+                 condition; the closest is {} (achieved safety factor {:.3}, {} governing).",
                 req.path,
                 show(req.min),
                 show(req.max),
                 req.safety_factor,
                 show(x_final),
-                eval_final.margin
+                eval_final.margin,
+                eval_final.tightest
+            ),
+        ));
+    }
+    if !eval_final.failed_corners.is_empty() {
+        cautions.push(Caution::new(
+            CautionKind::ModelLimit,
+            format!(
+                "Tolerance corners that are not valid designs count as missing every target: {}",
+                eval_final.failed_corners.join("; ")
             ),
         ));
     }
     let design_spec = search.spec_at(x_final)?;
-    if let Ok(d) = Design::from_spec(&design_spec) {
-        for c in d.cautions.clone() {
-            push_unique(&mut cautions, c);
-        }
-        if let Some(t) = req.hot_temperature_c {
-            for c in d.at_temperatures(t, t).cautions {
-                push_unique(&mut cautions, c);
-            }
-        }
+    for c in eval_final.cautions.clone() {
+        push_unique(&mut cautions, c);
     }
+    let stroke = search.judge.needs_stroke();
     let mut model = ModelInfo::new(
-        if search.metrics.iter().any(|m| m.needs_stroke()) {
+        if stroke {
             "spectral+ring_circuit"
         } else {
             "spectral"
         },
-        if search.metrics.iter().any(|m| m.needs_stroke()) {
+        if stroke {
             req.stroke.fidelity
         } else {
             Fidelity::Inductive
@@ -488,6 +361,11 @@ pub fn size_while(
         achieved_hot: eval_final.hot,
         margin: eval_final.margin,
         margins: eval_final.margins,
+        margins_nominal: eval_final.margins_nominal,
+        margins_worst_corner: eval_final.margins_worst_corner,
+        governing: eval_final.governing,
+        failed_corners: eval_final.failed_corners,
+        seek: req.seek,
         evaluations: search.evaluations,
         cautions,
         model,

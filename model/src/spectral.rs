@@ -734,31 +734,8 @@ pub fn force_curve(
             ),
         ));
     }
-    if terminal.is_none() {
-        cautions.push(Caution::new(
-            CautionKind::Runaway,
-            format!(
-                "RUNAWAY: the driving force {drive:.4} N exceeds the peak braking force {peak:.4} N \
-                 (at {critical:.4} m/s). The brake cannot hold this load at any speed; above the \
-                 critical speed a faster load brakes less."
-            ),
-        ));
-    } else if drive <= 0.0 {
-        cautions.push(Caution::new(
-            CautionKind::ModelLimit,
-            "The load does not drive the stack (friction or an uphill incline exceeds the driving \
-             force): there is no steady motion, terminal speed 0.",
-        ));
-    } else if let Some(t) = terminal
-        && t > 0.5 * critical
-    {
-        cautions.push(Caution::new(
-            CautionKind::Runaway,
-            format!(
-                "Terminal speed {t:.4} m/s is above half the critical speed {critical:.4} m/s: \
-                     little margin against runaway; a heavier or hotter case may not be held."
-            ),
-        ));
+    for c in crate::caution::steady_load_cautions(drive, peak, critical, terminal) {
+        cautions.push(c);
     }
     if err > NUMERICAL_CAUTION_RELATIVE {
         cautions.push(Caution::new(

@@ -21,6 +21,13 @@ pub struct StrokeOptions {
     pub ring_width_m: Option<f64>,
     /// Radial layer count override (default chosen from the wall and skin depth).
     pub radial_layers: Option<usize>,
+    /// Position of the stack centre where the load meets its end stop, m (None: the tube's
+    /// far end, `tube.length_m`). The stroke ends there unless `run_out` is set.
+    pub stop_position_m: Option<f64>,
+    /// Keep simulating past the stop until the stack centre has passed the far end of the tube
+    /// by one stack length (the run-out of a stack that leaves the tube); the summary's
+    /// landing and in-stroke figures still refer to the stop.
+    pub run_out: bool,
 }
 
 impl Default for StrokeOptions {
@@ -33,7 +40,16 @@ impl Default for StrokeOptions {
             samples: 200,
             ring_width_m: None,
             radial_layers: None,
+            stop_position_m: None,
+            run_out: false,
         }
+    }
+}
+
+impl StrokeOptions {
+    /// The stop position for `tube_length_m`: the one given, or the tube's far end.
+    pub fn stop_for(&self, tube_length_m: f64) -> f64 {
+        self.stop_position_m.unwrap_or(tube_length_m)
     }
 }
 
@@ -42,7 +58,9 @@ impl Default for StrokeOptions {
 #[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
 #[serde(rename_all = "snake_case")]
 pub enum StrokeEnd {
-    /// The stack centre passed the far end by one stack length.
+    /// The stack centre reached the stop position (the load met its end stop).
+    ReachedStop,
+    /// Run-out requested: the stack centre passed the far end by one stack length.
     PassedTube,
     /// The stack stopped (friction, uphill, or no drive).
     Stopped,
@@ -58,10 +76,21 @@ pub struct StrokeSummary {
     pub exit_time_s: Option<f64>,
     /// Speed at that moment, m/s; None if never.
     pub exit_speed_m_per_s: Option<f64>,
-    /// Largest speed, m/s.
+    /// Position of the stack centre at the end stop, m.
+    pub stop_position_m: f64,
+    /// Time at which the stack centre reaches the stop (the stroke time), s; None if never.
+    pub stroke_time_s: Option<f64>,
+    /// Speed at the stop (the landing speed), m/s; None if the stack never gets there.
+    pub landing_speed_m_per_s: Option<f64>,
+    /// Largest speed between the entry (or the start, when it is inside the tube) and the
+    /// stop, m/s.
     pub max_speed_m_per_s: f64,
-    /// Largest deceleration (braking beyond the driving force), m/s^2.
+    /// Largest deceleration (braking beyond the driving force) between the entry and the
+    /// stop, m/s^2.
     pub max_deceleration_m_per_s2: f64,
+    /// Largest speed before the stack centre reaches the entry (the fall or run-up to the
+    /// tube), m/s; None when the start is inside the tube.
+    pub max_speed_before_entry_m_per_s: Option<f64>,
     /// Largest braking force, N.
     pub max_braking_force_n: f64,
     /// Energy dissipated in the tube, J.

@@ -8,11 +8,12 @@
 //! is done, keeping memory bounded). A point that fails (an invalid design at that corner of
 //! the grid, say) carries its error; the others still arrive.
 
+use crate::caution::Caution;
 use crate::design::Design;
 use crate::designpath;
 use crate::error::ModelError;
 use crate::limits::Limits;
-use crate::metrics::{Metric, SteadyPair, evaluate_estimated};
+use crate::metrics::{Evaluation, Metric, SteadyPair, evaluate_estimated};
 use crate::spec::DesignSpec;
 use crate::stroke::StrokeOptions;
 use rayon::prelude::*;
@@ -66,6 +67,9 @@ pub struct SweepPoint {
     /// Estimated relative numerical error of the point's metrics (the change between two
     /// resolutions of the steady solver, and the stroke's own estimate), or null.
     pub error_estimate_relative: Option<f64>,
+    /// Cautions of this point's design and results (runaway, clearance, magnet temperature...;
+    /// no standing caution), decided as on every other endpoint.
+    pub cautions: Vec<Caution>,
 }
 
 /// Fields that leave the steady solver unchanged: the load (it only sets the driving
@@ -142,6 +146,19 @@ impl SweepPlan {
                 return Err(ModelError::field(
                     format!("vary[{i}].values[{j}]"),
                     "must be a finite number",
+                ));
+            }
+            if designpath::is_integer_path(&axis.path)
+                && let Some(v) = axis.values.iter().find(|v| v.fract() != 0.0)
+            {
+                return Err(ModelError::field(
+                    format!("vary[{i}]"),
+                    format!(
+                        "{} takes whole numbers only; {} is not one (for a range, choose from, to \
+                         and steps so that every step is whole)",
+                        designpath::normalise(&axis.path),
+                        crate::error::show(*v)
+                    ),
                 ));
             }
             points = points.saturating_mul(axis.values.len());
@@ -236,28 +253,25 @@ impl SweepPlan {
         Design::from_spec(&spec)
     }
 
-    fn point(
-        &self,
-        index: usize,
-        values: Result<(Vec<Option<f64>>, Option<f64>), ModelError>,
-    ) -> SweepPoint {
+    fn point(&self, index: usize, values: Result<Evaluation, ModelError>) -> SweepPoint {
         let inputs = self
             .inputs(index)
             .into_iter()
             .map(|(p, v)| (p.to_string(), v))
             .collect();
         match values {
-            Ok((v, estimate)) => SweepPoint {
+            Ok(v) => SweepPoint {
                 index,
                 inputs,
                 metrics: self
                     .metrics
                     .iter()
                     .map(|m| m.name().to_string())
-                    .zip(v)
+                    .zip(v.values)
                     .collect(),
                 error: None,
-                error_estimate_relative: estimate,
+                error_estimate_relative: v.error_estimate_relative,
+                cautions: v.cautions,
             },
             Err(e) => SweepPoint {
                 index,
@@ -269,6 +283,7 @@ impl SweepPlan {
                     .collect(),
                 error: Some(e.to_string()),
                 error_estimate_relative: None,
+                cautions: Vec::new(),
             },
         }
     }

@@ -93,6 +93,11 @@ impl Tolerances {
         Ok(())
     }
 
+    /// How many tolerances are given (non-zero): the corners are 2^this.
+    pub fn active_count(&self) -> usize {
+        self.active().len()
+    }
+
     fn active(&self) -> Vec<(usize, f64)> {
         [
             self.remanence_fraction,

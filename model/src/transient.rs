@@ -201,8 +201,6 @@ struct Plan {
     reach_m: f64,
     max_steps: usize,
     rules: EndRules,
-    /// Long-tube quasi-static damping, N s/m.
-    c_mid_n_s_per_m: f64,
     /// The job's cancellation token, checked every few steps.
     cancel: crate::cancel::CancelToken,
 }
@@ -243,6 +241,17 @@ fn validate(opts: &StrokeOptions, design: &Design, limits: &Limits) -> Result<()
     if !(opts.max_time_s.is_finite() && opts.max_time_s > 0.0) {
         errs.push(FieldError::new("max_time_s", "must be greater than 0"));
     }
+    if let Some(stop) = opts.stop_position_m
+        && !(stop.is_finite() && stop.abs() <= 1000.0 && stop > opts.start_position_m)
+    {
+        errs.push(FieldError::new(
+            "stop_position_m",
+            format!(
+                "must be a finite position ahead of the start ({} m) and within 1000 m",
+                opts.start_position_m
+            ),
+        ));
+    }
     if opts.samples < 2 {
         errs.push(FieldError::new("samples", "must be at least 2"));
     }
@@ -276,13 +285,25 @@ fn plan(design: &Design, opts: &StrokeOptions, limits: &Limits, c_mid: f64) -> P
     let reach = window_half_length_m(design, speeds.overall_m_per_s);
     let lt = design.tube.length_m;
     let ls = design.magnets.total_length_m();
-    let base_reach = window_half_length_m(design, 0.0);
+    let stop = opts.stop_for(lt);
+    let end_position_m = if opts.run_out {
+        stop.max(lt + ls)
+    } else {
+        stop
+    };
+    let mut speeds = speeds;
+    if end_position_m > lt + ls {
+        // Free flight from the far end of the tube on to a stop beyond it.
+        let a = (mech.drive_n - mech.friction_n).max(0.0) / mech.mass_kg;
+        let beyond = (speeds.overall_m_per_s.powi(2) + 2.0 * a * (end_position_m - lt - ls)).sqrt();
+        speeds.overall_m_per_s = speeds.overall_m_per_s.max(beyond);
+    }
     let rules = EndRules {
         tube_length_m: lt,
-        end_position_m: lt + ls,
+        stop_position_m: stop,
+        end_position_m,
         max_time_s: opts.max_time_s,
         stop_speed_m_per_s: STOP_SPEED_FRACTION * speeds.overall_m_per_s.max(1e-6),
-        interior_m: (base_reach, lt - base_reach),
     };
     Plan {
         mech,
@@ -295,7 +316,6 @@ fn plan(design: &Design, opts: &StrokeOptions, limits: &Limits, c_mid: f64) -> P
         reach_m: reach,
         max_steps: limits.max_steps,
         rules,
-        c_mid_n_s_per_m: c_mid,
         cancel: limits.cancel.clone(),
     }
 }
@@ -834,10 +854,6 @@ fn quasi_static_path(
     Ok((outcome, info))
 }
 
-/// A runaway check for a stack that, in the tube's interior, was still accelerating above the
-/// quasi-static terminal speed: the drive is compared with the peak of the steady force-speed
-/// curve of a long tube ([`crate::spectral::SteadySolver`]). A load beyond the peak force cannot
-/// be held at any speed (Partovi & Morris, Can. J. Phys. 84, 253, 2006, on the force peak).
 /// The model block of an inductive run: the ring grid, the smallest step, the step count and
 /// the axial reach of the mutual coupling kept.
 fn ring_circuit_info(method: &str, grid: &RingGrid, outcome: &Outcome, reach_m: f64) -> ModelInfo {
@@ -854,26 +870,6 @@ fn ring_circuit_info(method: &str, grid: &RingGrid, outcome: &Outcome, reach_m: 
             ..Discretisation::default()
         },
     )
-}
-
-fn runaway_caution(design: &Design, plan: &Plan, tally: &Tally) -> Option<Caution> {
-    let (v, _, accel) = tally.interior_last?;
-    let drive = plan.mech.drive_n - plan.mech.friction_n;
-    if drive <= 0.0 || accel <= 0.0 || v * plan.c_mid_n_s_per_m <= drive {
-        return None;
-    }
-    let solver = crate::spectral::SteadySolver::new(design, None).ok()?;
-    let (v_peak, f_peak) = solver.peak(v);
-    (drive > f_peak).then(|| {
-        Caution::new(
-            CautionKind::Runaway,
-            format!(
-                "RUNAWAY: the load's net driving force ({drive:.3} N) exceeds the peak braking force \
-                 of the tube ({f_peak:.3} N at {v_peak:.3} m/s); the brake cannot hold it at any speed \
-                 and the stack was still accelerating inside the tube. Resize the brake."
-            ),
-        )
-    })
 }
 
 /// Radial resolution check: relative change of the long-tube damping when the layers of
@@ -940,7 +936,7 @@ fn assemble(
             Caution::new(
                 CautionKind::Numerical,
                 format!(
-                    "The run reached max_time_s = {} s before the stack passed the tube or stopped; \
+                    "The run reached max_time_s = {} s before the stack reached its stop or stopped; \
                      the summary describes a stroke in progress.",
                     plan.max_time_s
                 ),
@@ -956,8 +952,20 @@ fn assemble(
         ),
         _ => {}
     }
-    if let Some(c) = runaway_caution(design, plan, tally) {
-        push_unique(&mut cautions, c);
+    // Runaway and the margin against it are the design's, decided from the steady curve as
+    // on every other endpoint.
+    if plan.mech.drive_n - plan.mech.friction_n > 0.0
+        && let Ok(solver) = crate::spectral::SteadySolver::new(design, None)
+    {
+        let m = solver.metrics(design);
+        for c in crate::caution::steady_load_cautions(
+            m.drive_force_n,
+            m.peak_force_n,
+            m.critical_speed_m_per_s,
+            m.terminal_speed_m_per_s,
+        ) {
+            push_unique(&mut cautions, c);
+        }
     }
     if o.dt_reduced {
         push_unique(
@@ -1027,8 +1035,12 @@ fn assemble(
     let summary = StrokeSummary {
         exit_time_s: tally.exit.map(|e| e.0),
         exit_speed_m_per_s: tally.exit.map(|e| e.1),
+        stop_position_m: plan.rules.stop_position_m,
+        stroke_time_s: tally.landing.map(|l| l.0),
+        landing_speed_m_per_s: tally.landing.map(|l| l.1),
         max_speed_m_per_s: tally.max_speed_m_per_s,
         max_deceleration_m_per_s2: tally.max_deceleration_m_per_s2,
+        max_speed_before_entry_m_per_s: tally.max_speed_before_entry_m_per_s,
         max_braking_force_n: tally.max_braking_n,
         heat_j: tally.heat_j,
         tube_temperature_rise_k: rise,

@@ -423,6 +423,8 @@ fn sweeps_and_sizing_carry_the_estimate_of_their_numbers() {
             safety_factor: 1.25,
             hot_temperature_c: None,
             stroke: StrokeOptions::default(),
+            seek: Default::default(),
+            tolerances: None,
         },
         &Limits::default(),
     )

@@ -12,7 +12,7 @@ use proptest::prelude::*;
 use ringdrag_model::cancel::CancelToken;
 use ringdrag_model::forcecurve::ForceCurveOptions;
 use ringdrag_model::report::Fidelity;
-use ringdrag_model::sizing::{SizeRequest, SizeTarget, size};
+use ringdrag_model::sizing::{Seek, SizeRequest, SizeTarget, size};
 use ringdrag_model::stroke::StrokeOptions;
 use ringdrag_model::{Design, DesignSpec, Limits, ModelError};
 use std::sync::Mutex;
@@ -300,6 +300,8 @@ fn sizing_up_to_the_bore_is_bounded() {
             start_position_m: -0.03,
             ..StrokeOptions::default()
         },
+        seek: Seek::Smallest,
+        tolerances: None,
     };
     let (out, peak, el) = bounded(Duration::from_secs(3), |l| size(&req, l));
     assert_bounded("size to the bore", Duration::from_secs(3), &out, peak, el);

@@ -154,7 +154,10 @@ fn negligible_conductivity_gives_free_fall() {
         let v = s.summary.exit_speed_m_per_s.expect("exits");
         // source: common practice (v = g t).
         assert!(rel(v, g * expected) < 1e-6);
-        assert_eq!(s.summary.end_reason, StrokeEnd::PassedTube);
+        // The default stop is the far end: the landing is the exit.
+        assert_eq!(s.summary.end_reason, StrokeEnd::ReachedStop);
+        assert_eq!(s.summary.landing_speed_m_per_s, Some(v));
+        assert_eq!(s.summary.stroke_time_s, Some(t));
     }
 }
 
@@ -441,8 +444,9 @@ fn results_carry_contract_fields() {
     }
     assert_eq!(s.series.time_s[0], 0.0);
     assert_eq!(s.series.time_s[n - 1], s.summary.end_time_s);
-    assert_eq!(s.summary.end_reason, StrokeEnd::PassedTube);
-    assert!(s.summary.end_position_m >= 0.32);
+    assert_eq!(s.summary.end_reason, StrokeEnd::ReachedStop);
+    assert_eq!(s.summary.end_position_m, 0.3);
+    assert_eq!(s.series.position_m[n - 1], 0.3);
     let rise = s
         .summary
         .tube_temperature_rise_k
@@ -576,4 +580,66 @@ fn auto_falls_back_to_quasi_static_when_the_ring_circuit_is_too_large() {
         simulate_stroke(&d, &opts, &Limits::default()),
         Err(ModelError::TooLarge { .. })
     ));
+}
+
+#[test]
+fn a_stroke_ends_at_the_users_stop_and_reports_the_landing() {
+    // Free fall from 5 cm above the entry to a stop 0.2 m into a 0.3 m tube of negligible
+    // conductivity: v = sqrt(2 g h), t = sqrt(2 h / g) (source: textbook kinematics, common
+    // practice).
+    let d = design(
+        r#"{"magnets":{"remanence_t":1.3,"outer_diameter_m":0.012,"length_m":0.02},
+            "tube":{"conductivity_s_per_m":1e-3,"inner_diameter_m":0.013,"wall_thickness_m":0.0015,
+                    "length_m":0.3}}"#,
+    );
+    let g: f64 = 9.80665;
+    for fidelity in [Fidelity::QuasiStatic, Fidelity::Inductive] {
+        let opts = StrokeOptions {
+            start_position_m: -0.05,
+            stop_position_m: Some(0.2),
+            fidelity,
+            ..StrokeOptions::default()
+        };
+        let s = simulate_stroke(&d, &opts, &Limits::default()).expect("runs");
+        let sum = &s.summary;
+        assert_eq!(sum.end_reason, StrokeEnd::ReachedStop);
+        assert_eq!(sum.stop_position_m, 0.2);
+        let v = sum.landing_speed_m_per_s.expect("lands");
+        // source: common practice (second-order integrators are exact for constant
+        // acceleration; 1e-6 leaves room for the braking of 1e-3 S/m).
+        assert!(rel(v, (2.0 * g * 0.25).sqrt()) < 1e-6, "{fidelity:?}: {v}");
+        let t = sum.stroke_time_s.expect("lands");
+        assert!(rel(t, (2.0 * 0.25 / g).sqrt()) < 1e-6, "{t}");
+        // The largest speed in the stroke is the landing speed; the fall before the entry is
+        // reported apart (sqrt(2 g 0.05)).
+        assert!(rel(sum.max_speed_m_per_s, v) < 1e-9);
+        let before = sum.max_speed_before_entry_m_per_s.expect("started above");
+        assert!(rel(before, (2.0 * g * 0.05).sqrt()) < 1e-6, "{before}");
+        // The series ends at the stop; the far end is never reached.
+        assert_eq!(sum.exit_time_s, None);
+        assert_eq!(s.series.position_m.last().copied(), Some(0.2));
+        assert_eq!(s.series.time_s.last().copied(), Some(t));
+        assert_eq!(sum.end_time_s, t);
+        // A run-out continues past the tube; the landing figures still refer to the stop.
+        let run_out = StrokeOptions {
+            run_out: true,
+            ..opts.clone()
+        };
+        let r = simulate_stroke(&d, &run_out, &Limits::default()).expect("runs");
+        assert_eq!(r.summary.end_reason, StrokeEnd::PassedTube);
+        assert!(r.summary.end_position_m >= 0.32);
+        assert!(rel(r.summary.landing_speed_m_per_s.expect("lands"), v) < 1e-9);
+        assert!(rel(r.summary.max_speed_m_per_s, v) < 1e-9);
+        assert!(r.summary.end_speed_m_per_s > v);
+    }
+    // A stop behind the start is refused by name.
+    let behind = StrokeOptions {
+        start_position_m: 0.1,
+        stop_position_m: Some(0.05),
+        ..StrokeOptions::default()
+    };
+    match simulate_stroke(&d, &behind, &Limits::default()) {
+        Err(ModelError::Invalid(e)) => assert_eq!(e[0].path, "stop_position_m"),
+        other => panic!("expected a refusal, got {other:?}"),
+    }
 }

@@ -620,6 +620,7 @@ pub fn stroke_svg(stroke: &SimulateResponse) -> Result<String, PlotError> {
     }
     let t = format_number(stroke.summary.end_time_s);
     let title = match stroke.summary.end_reason {
+        StrokeEnd::ReachedStop => format!("Stroke through the tube: reached the stop in {t} s"),
         StrokeEnd::PassedTube => format!("Stroke through the tube: passed it in {t} s"),
         StrokeEnd::Stopped => format!("Stroke through the tube: stopped after {t} s"),
         StrokeEnd::TimeLimit => format!("Stroke through the tube: time limit of {t} s reached"),
@@ -886,6 +887,8 @@ mod tests {
             metrics: [("m".to_string(), y)].into_iter().collect(),
             error: None,
             error_estimate_relative: None,
+            cautions: Vec::new(),
+            caution_kinds: Vec::new(),
         };
         let pts = [
             point(3.0, Some(3.0)),

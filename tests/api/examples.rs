@@ -195,3 +195,32 @@ async fn the_sizing_example_finds_a_wall() {
     assert_eq!(body["feasible"], true, "{body}");
     assert!(body["tolerance_bands"]["bands"]["terminal_speed_m_per_s"].is_object());
 }
+
+#[tokio::test]
+async fn the_landing_speed_sizing_and_the_selection_examples_compute() {
+    let app = spawn_app().await;
+    let size = app
+        .post_ok(
+            "/v1/size",
+            &example("size-magnet-count-for-landing-speed.json"),
+        )
+        .await;
+    assert_eq!(size["feasible"], true, "{size}");
+    assert!(size["value"].is_u64(), "{size}");
+    assert!(size["margins_worst_corner"]["max_landing_speed_m_per_s"].as_f64() >= Some(1.25));
+    let select = app
+        .post_ok("/v1/select", &example("select-stocked-parts.json"))
+        .await;
+    assert_eq!(select["feasible"], true, "{select}");
+    let designs = select["designs"].as_array().expect("designs");
+    assert!(
+        designs
+            .iter()
+            .all(|d| d["margin"].as_f64().is_some_and(|m| m >= 1.25)),
+        "{select}"
+    );
+    assert!(
+        select["pruned_by_steady_bound"].as_u64() > Some(0),
+        "{select}"
+    );
+}

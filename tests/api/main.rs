@@ -6,6 +6,7 @@
 mod access;
 mod bounded;
 mod concurrency;
+mod configurator;
 mod connections;
 mod errors;
 mod examples;

@@ -175,13 +175,19 @@ async fn the_stroke_plot_has_two_panels_over_time() {
     assert!(rel(number_after(label, "reaches the far end at "), exit) < 0.005);
     assert!(svg.text_starting("enters the tube at ").is_some());
     // The title says how the run ended (the summary's end reason).
-    assert_eq!(stroke["summary"]["end_reason"], "passed_tube");
+    assert_eq!(stroke["summary"]["end_reason"], "reached_stop");
+    let title = svg
+        .text_starting("Stroke through the tube: reached the stop in ")
+        .unwrap_or_else(|| panic!("{:?}", svg.texts));
+    // The title's time is the summary's stroke time (the run ends at the stop).
+    let stroke_time = stroke["summary"]["stroke_time_s"].as_f64().expect("lands");
     assert!(
-        svg.text_starting("Stroke through the tube: passed it in ")
-            .is_some(),
-        "{:?}",
-        svg.texts
+        rel(
+            number_after(title, "Stroke through the tube: reached the stop in "),
+            stroke_time
+        ) < 0.005
     );
+    assert_eq!(stroke["summary"]["end_time_s"].as_f64(), Some(stroke_time));
 }
 
 #[tokio::test]

@@ -75,7 +75,7 @@ async fn a_tube_of_negligible_conductivity_gives_free_fall() {
             "x({ti}) = {xi}, free fall {expected}"
         );
     }
-    assert_eq!(body["summary"]["end_reason"], "passed_tube");
+    assert_eq!(body["summary"]["end_reason"], "reached_stop");
     let fidelity = body["model"]["fidelity"].as_str().expect("fidelity");
     assert!(
         fidelity == "quasi_static" || fidelity == "inductive",
@@ -160,7 +160,7 @@ async fn a_drop_through_copper_closes_the_energy_ledger_to_the_time_step_error()
         )
         .await;
     let s = &body["summary"];
-    assert_eq!(s["end_reason"], "passed_tube");
+    assert_eq!(s["end_reason"], "reached_stop");
     let exit_time = f(&s["exit_time_s"]);
     // Braking must make the drop much slower than free fall over the same 0.33 m
     // (source: textbook kinematics, common practice, for the free-fall time).

@@ -181,7 +181,7 @@ fn heavy_sweep(steps: u32) -> Value {
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn a_stream_past_the_request_timeout_ends_with_an_incomplete_end_line() {
     let app = spawn_app_with(&["--request-timeout-s", "1"], &[], Logs::Quiet).await;
-    let lines = post_ndjson(&app, &heavy_sweep(2000)).await;
+    let lines = post_ndjson(&app, &heavy_sweep(8000)).await;
     let (arrived, end) = lines.last().expect("lines");
     assert_eq!(end["kind"], "end", "{end}");
     assert_eq!(end["complete"], false);
@@ -193,7 +193,7 @@ async fn a_stream_past_the_request_timeout_ends_with_an_incomplete_end_line() {
         lines.len() - 2,
         "the end line counts the point lines"
     );
-    assert!(sent < 2000);
+    assert!(sent < 8000);
     // The stream ends at the deadline, not when the computation ends (source: the endpoint's
     // documented behaviour; 1 s timeout, generous margin for a loaded machine).
     assert!(*arrived < Duration::from_secs(5), "ended after {arrived:?}");

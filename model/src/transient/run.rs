@@ -49,17 +49,39 @@ pub(crate) struct StepRecord {
     pub(crate) power1_w: f64,
 }
 
+impl StepRecord {
+    /// Time and speed at which the stack centre passes `x` within this forward step
+    /// (x0 <= x <= x1): v^2 linear in position and the mean speed over the part, both exact for
+    /// constant acceleration (the trapezoidal and BDF2 steps are exact then too).
+    pub(crate) fn crossing(&self, x: f64) -> (f64, f64) {
+        let dx = self.x1 - self.x0;
+        if dx <= 0.0 {
+            return (self.t1, self.v1);
+        }
+        let f = ((x - self.x0) / dx).clamp(0.0, 1.0);
+        let v2 = self.v0 * self.v0 + f * (self.v1 * self.v1 - self.v0 * self.v0);
+        let v = v2.max(0.0).sqrt();
+        let t = if self.v0 + v > 0.0 {
+            (self.t0 + 2.0 * (x - self.x0) / (self.v0 + v)).min(self.t1)
+        } else {
+            self.t0 + f * (self.t1 - self.t0)
+        };
+        (t, v)
+    }
+}
+
 /// Where the run ends and what counts as stopped.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(crate) struct EndRules {
     pub(crate) tube_length_m: f64,
-    /// The run ends when the stack centre passes this position (tube length + stack length).
+    /// Where the load meets its end stop (stack centre position).
+    pub(crate) stop_position_m: f64,
+    /// The run ends when the stack centre passes this position: the stop, or with a run-out
+    /// the larger of the stop and tube length + stack length.
     pub(crate) end_position_m: f64,
     pub(crate) max_time_s: f64,
     /// Below this speed, with no drive beyond friction, the stack counts as stopped.
     pub(crate) stop_speed_m_per_s: f64,
-    /// Stack centre positions between which the stack's field lies wholly inside the tube.
-    pub(crate) interior_m: (f64, f64),
 }
 
 /// Statistics and ledger accumulated over the run.
@@ -76,14 +98,16 @@ pub(crate) struct Tally {
     pub(crate) heat_j: f64,
     pub(crate) friction_work_j: f64,
     pub(crate) exit: Option<(f64, f64)>,
+    /// (t, v) when the stack centre reached the stop.
+    pub(crate) landing: Option<(f64, f64)>,
+    /// Largest speed before the stack centre reached the entry; None when it started inside.
+    pub(crate) max_speed_before_entry_m_per_s: Option<f64>,
     /// (t, x, v) where the run ended (the turning point when the stack reversed).
     pub(crate) end_state: (f64, f64, f64),
     /// (x, v) at the last step whose accounting entered the ledger.
     pub(crate) ledger_state: (f64, f64),
     /// Largest position reached and smallest, m.
     pub(crate) x_range_m: (f64, f64),
-    /// The last (speed, braking, acceleration) seen in the tube's interior (runaway check).
-    pub(crate) interior_last: Option<(f64, f64, f64)>,
 }
 
 impl Tally {
@@ -94,7 +118,7 @@ impl Tally {
             start_x_m: x0,
             start_v_m_per_s: v0,
             steps: 0,
-            max_speed_m_per_s: v0.abs(),
+            max_speed_m_per_s: if x0 >= 0.0 { v0.abs() } else { 0.0 },
             max_deceleration_m_per_s2: 0.0,
             max_braking_n: 0.0,
             heat_j: 0.0,
@@ -104,10 +128,11 @@ impl Tally {
             } else {
                 None
             },
+            landing: None,
+            max_speed_before_entry_m_per_s: (x0 < 0.0).then_some(v0.abs()),
             end_state: (0.0, x0, v0),
             ledger_state: (x0, v0),
             x_range_m: (x0, x0),
-            interior_last: None,
         }
     }
 
@@ -120,24 +145,46 @@ impl Tally {
         self.friction_work_j += -s.friction_force_n * dx;
         self.ledger_state = (s.x1, s.v1);
         self.x_range_m = (self.x_range_m.0.min(s.x1), self.x_range_m.1.max(s.x1));
-        self.max_speed_m_per_s = self.max_speed_m_per_s.max(s.v1.abs());
         let braking = -s.em_force_n;
         self.max_braking_n = self.max_braking_n.max(braking);
         let accel = (self.mech.drive_n + s.em_force_n + s.friction_force_n) / self.mech.mass_kg;
-        self.max_deceleration_m_per_s2 = self.max_deceleration_m_per_s2.max(-accel);
-        if s.x1 >= self.rules.interior_m.0 && s.x1 <= self.rules.interior_m.1 && s.v1 > 0.0 {
-            self.interior_last = Some((s.v1, braking, accel));
+        // Figures of the stroke proper (entry to stop) and of the run-up before the entry.
+        let stop = self.rules.stop_position_m;
+        let in_stroke = self.landing.is_none();
+        let mut v_in = s.v1;
+        if in_stroke && s.x0 < stop && s.x1 >= stop {
+            let (t, v) = s.crossing(stop);
+            v_in = v;
+            self.landing = Some((t, v));
+        }
+        if in_stroke && s.x1 >= 0.0 {
+            self.max_speed_m_per_s = self.max_speed_m_per_s.max(v_in.abs());
+            self.max_deceleration_m_per_s2 = self.max_deceleration_m_per_s2.max(-accel);
+        }
+        if s.x0 < 0.0 {
+            let v_entry = if s.x1 < 0.0 { s.v1 } else { s.crossing(0.0).1 };
+            let before = self.max_speed_before_entry_m_per_s.unwrap_or(0.0);
+            self.max_speed_before_entry_m_per_s = Some(before.max(v_entry.abs()));
+            if s.x1 >= 0.0 && in_stroke {
+                self.max_speed_m_per_s = self.max_speed_m_per_s.max(v_entry.abs());
+            }
         }
         if self.exit.is_none()
             && s.x0 < self.rules.tube_length_m
             && s.x1 >= self.rules.tube_length_m
         {
-            let f = (self.rules.tube_length_m - s.x0) / dx;
-            self.exit = Some((s.t0 + f * dt, s.v0 + f * (s.v1 - s.v0)));
+            self.exit = Some(s.crossing(self.rules.tube_length_m));
         }
         self.end_state = (s.t1, s.x1, s.v1);
         let mech = &self.mech;
         if s.x1 >= self.rules.end_position_m {
+            if self.rules.end_position_m <= stop
+                && let Some((t, v)) = self.landing
+            {
+                // The stroke ends at the stop: the state there, not past it.
+                self.end_state = (t, stop, v);
+                return Some(StrokeEnd::ReachedStop);
+            }
             return Some(StrokeEnd::PassedTube);
         }
         if s.v1 < 0.0 {

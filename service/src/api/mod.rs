@@ -6,6 +6,7 @@ pub mod health;
 pub mod materials;
 pub mod ops;
 pub mod report;
+pub mod select;
 pub mod simulate;
 pub mod size;
 pub mod sweep;
@@ -48,6 +49,7 @@ pub fn api_router() -> OpenApiRouter<AppState> {
         .routes(routes!(simulate::simulate_stroke))
         .routes(routes!(sweep::sweep_design))
         .routes(routes!(size::size_design))
+        .routes(routes!(select::select_parts))
         .routes(routes!(health::healthz))
         .routes(routes!(health::readyz))
         .routes(routes!(ops::metrics))

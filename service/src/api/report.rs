@@ -124,6 +124,16 @@ pub fn cautions(model_cautions: Vec<Caution>) -> (Vec<String>, Vec<CautionDetail
     (strings, details)
 }
 
+/// A design field's value as JSON: a whole number for integer fields (`magnets.count`), so
+/// that counts are reported as integers; None when not finite.
+pub fn field_number(value: f64, integer: bool) -> Option<serde_json::Number> {
+    if integer && value.fract() == 0.0 && value.abs() < 9.0e15 {
+        Some(serde_json::Number::from(value as i64))
+    } else {
+        serde_json::Number::from_f64(value)
+    }
+}
+
 /// Collects the names of output fields whose values are not finite.
 #[derive(Debug, Default)]
 pub struct FiniteCheck {

@@ -94,6 +94,17 @@ pub struct SimulateRequest {
     /// Resolution override; omit to let the model choose.
     #[serde(default)]
     pub resolution: StrokeResolution,
+    /// Where the load meets its end stop: the position of the stack centre, m (same axis as
+    /// `start.position_m`); must lie ahead of the start. Default: the tube's far end
+    /// (`tube.length_m`). The stroke, its summary and its series end there.
+    #[serde(default)]
+    #[schema(minimum = -100.0, maximum = 100.0)]
+    pub stop_position_m: Option<f64>,
+    /// Keep simulating past the stop until the stack centre has passed the tube's far end by
+    /// one stack length (the run-out of a stack that leaves the tube); the landing and
+    /// in-stroke figures of the summary still refer to the stop. Default false.
+    #[serde(default)]
+    pub run_out: bool,
 }
 
 fn within(
@@ -153,6 +164,26 @@ pub(crate) fn check_stroke_setup(
     }
 }
 
+/// Checks an end stop against the start: finite, within the positions a start may take, and
+/// ahead of the start (a stop behind the start is refused, naming `stop_position_m`).
+pub(crate) fn check_stop(start: &StartState, stop: Option<f64>, errors: &mut Vec<FieldProblem>) {
+    if let Some(x) = stop {
+        within(
+            errors,
+            "stop_position_m",
+            x,
+            x.abs() <= MAX_START_POSITION_M && x > start.position_m,
+            || {
+                format!(
+                    "must lie ahead of the start position ({} m), between -{MAX_START_POSITION_M} \
+                     and {MAX_START_POSITION_M} m",
+                    start.position_m
+                )
+            },
+        );
+    }
+}
+
 impl SimulateRequest {
     /// The validated design and options, or every problem found.
     pub fn validate(self, limits: &Limits) -> Result<(Design, StrokeOptions), ApiError> {
@@ -166,6 +197,7 @@ impl SimulateRequest {
             &mut errors,
             &mut too_large,
         );
+        check_stop(&self.start, self.stop_position_m, &mut errors);
         let p = self.start.position_m;
         let v = self.start.speed_m_per_s;
         let t = self.max_time_s;
@@ -217,6 +249,8 @@ impl SimulateRequest {
                 samples: self.samples as usize,
                 ring_width_m: resolution.ring_width_m,
                 radial_layers,
+                stop_position_m: self.stop_position_m,
+                run_out: self.run_out,
             },
         ))
     }
@@ -230,10 +264,25 @@ pub struct StrokeSummaryDto {
     pub exit_time_s: Option<f64>,
     /// Speed at that moment, m/s; null if the stack never gets there.
     pub exit_speed_m_per_s: Option<f64>,
-    /// Largest speed, m/s.
+    /// Position of the stack centre at the end stop, m (the request's `stop_position_m`, or
+    /// the tube's far end).
+    pub stop_position_m: f64,
+    /// Time from the start to the stop (the stroke time), s; null if the stack never gets
+    /// there.
+    pub stroke_time_s: Option<f64>,
+    /// Speed at the stop (the landing speed the load meets its stop with), m/s; null if the
+    /// stack never gets there.
+    pub landing_speed_m_per_s: Option<f64>,
+    /// Largest speed between the entry (or the start, when it is inside the tube) and the
+    /// stop, m/s. Free flight before the entry is reported apart, in
+    /// `max_speed_before_entry_m_per_s`; a run-out past the stop is not counted.
     pub max_speed_m_per_s: f64,
-    /// Largest deceleration (braking and friction beyond the driving force), m/s^2.
+    /// Largest deceleration (braking and friction beyond the driving force) between the entry
+    /// and the stop, m/s^2.
     pub max_deceleration_m_per_s2: f64,
+    /// Largest speed before the stack centre reaches the tube's entry (the fall or run-up to
+    /// the tube), m/s; null when the start is inside the tube.
+    pub max_speed_before_entry_m_per_s: Option<f64>,
     /// Largest braking force, N.
     pub max_braking_force_n: f64,
     /// Energy dissipated in the tube, J.
@@ -292,7 +341,14 @@ impl SimulateResponse {
         let summary = StrokeSummaryDto {
             exit_time_s: c.opt("summary.exit_time_s", s.exit_time_s),
             exit_speed_m_per_s: c.opt("summary.exit_speed_m_per_s", s.exit_speed_m_per_s),
+            stop_position_m: c.num("summary.stop_position_m", s.stop_position_m),
+            stroke_time_s: c.opt("summary.stroke_time_s", s.stroke_time_s),
+            landing_speed_m_per_s: c.opt("summary.landing_speed_m_per_s", s.landing_speed_m_per_s),
             max_speed_m_per_s: c.num("summary.max_speed_m_per_s", s.max_speed_m_per_s),
+            max_speed_before_entry_m_per_s: c.opt(
+                "summary.max_speed_before_entry_m_per_s",
+                s.max_speed_before_entry_m_per_s,
+            ),
             max_deceleration_m_per_s2: c.num(
                 "summary.max_deceleration_m_per_s2",
                 s.max_deceleration_m_per_s2,

@@ -9,8 +9,8 @@
 //! switches once, and bisects. When `tolerances` are given, the worst-case bands of the
 //! metrics are evaluated at the sized design, hot (`ringdrag_model::tolerance::bands`).
 
-use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
-use crate::api::simulate::{StartState, check_stroke_setup};
+use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions, field_number};
+use crate::api::simulate::{StartState, check_stop, check_stroke_setup};
 use crate::api::sweep::check_base_design;
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
@@ -22,7 +22,7 @@ use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
 use ringdrag_model::metrics::Metric;
 use ringdrag_model::report::Fidelity;
-use ringdrag_model::sizing::{self, SizeResult, SizeTarget};
+use ringdrag_model::sizing::{self, Governing, Seek, SizeResult, SizeTarget};
 use ringdrag_model::tolerance::{self, ToleranceBands, Tolerances};
 use ringdrag_model::{DesignSpec, Limits, ModelError, StrokeOptions, designpath};
 use serde::{Deserialize, Serialize};
@@ -44,8 +44,15 @@ pub struct SizeVary {
     pub path: String,
     /// Smallest value allowed, in the field's unit.
     pub min: f64,
-    /// Largest value allowed, in the field's unit; greater than `min`.
+    /// Largest value allowed, in the field's unit; greater than `min`. For integer fields
+    /// both ends must be whole numbers.
     pub max: f64,
+    /// `smallest` (default): the smallest value that meets every target (a wall, a magnet
+    /// count, a tube length). `largest`: the largest value that still meets every target (the
+    /// rated payload `load.payload_mass_kg`, the steepest incline `load.incline_deg`, the
+    /// longest stroke `tube.length_m`).
+    #[serde(default)]
+    pub seek: Seek,
 }
 
 fn sixty() -> f64 {
@@ -83,11 +90,20 @@ pub struct SizeRequest {
     /// Fidelity of the strokes of time and deceleration targets (as in `/v1/simulate`).
     #[serde(default)]
     pub fidelity: Fidelity,
-    /// Manufacturing tolerances; when given, the response carries `tolerance_bands` of the
-    /// metrics at the sized design, hot.
+    /// Manufacturing tolerances; when given, every target is also checked at every tolerance
+    /// corner, cold and hot, and feasibility is decided at the worst of them (for a speed
+    /// limit: the worst corner, hot). The response then carries `margins_worst_corner`,
+    /// `governing` names the corner, and `tolerance_bands` gives the bands of the metrics at
+    /// the sized design, hot.
     #[serde(default)]
     #[schema(value_type = Tolerances)]
     pub tolerances: Option<Tolerances>,
+    /// Where the load meets its end stop in the strokes of stroke metrics and targets: the
+    /// position of the stack centre, m; default: the tube's far end (`tube.length_m`, which
+    /// follows a varied tube length).
+    #[serde(default)]
+    #[schema(minimum = -100.0, maximum = 100.0)]
+    pub stop_position_m: Option<f64>,
 }
 
 /// A validated sizing job.
@@ -107,19 +123,6 @@ fn push_model_error(err: ModelError, errors: &mut Vec<FieldProblem>) {
             message: other.to_string(),
         }),
     }
-}
-
-/// The targets given, by their request names.
-fn targets(t: &SizeTarget) -> Vec<(&'static str, f64)> {
-    [
-        ("max_terminal_speed_m_per_s", t.max_terminal_speed_m_per_s),
-        ("max_exit_time_s", t.max_exit_time_s),
-        ("min_exit_time_s", t.min_exit_time_s),
-        ("max_deceleration_m_per_s2", t.max_deceleration_m_per_s2),
-    ]
-    .into_iter()
-    .filter_map(|(name, v)| v.map(|v| (name, v)))
-    .collect()
 }
 
 impl SizeRequest {
@@ -151,21 +154,20 @@ impl SizeRequest {
                 message: format!("must be between {t_lo} and {t_hi} C"),
             });
         }
-        let given = targets(&self.target);
-        if given.is_empty() {
-            errors.push(FieldProblem {
-                path: "target".into(),
-                message: "give at least one target: max_terminal_speed_m_per_s, \
-                          max_exit_time_s, min_exit_time_s or max_deceleration_m_per_s2"
-                    .into(),
-            });
+        if let Err(e) = self.target.check("target") {
+            push_model_error(e, &mut errors);
         }
-        for (name, v) in given {
-            if !(v.is_finite() && v > 0.0) {
-                errors.push(FieldProblem {
-                    path: format!("target.{name}"),
-                    message: "must be greater than zero".into(),
-                });
+        if designpath::is_integer_path(&self.vary.path) {
+            for (at, v) in [("vary.min", self.vary.min), ("vary.max", self.vary.max)] {
+                if v.is_finite() && v.fract() != 0.0 {
+                    errors.push(FieldProblem {
+                        path: at.into(),
+                        message: format!(
+                            "{} takes whole numbers only; {v} is not one",
+                            designpath::normalise(&self.vary.path)
+                        ),
+                    });
+                }
             }
         }
         if let Some(t) = &self.tolerances
@@ -180,6 +182,7 @@ impl SizeRequest {
             &mut errors,
             &mut too_large,
         );
+        check_stop(&self.start, self.stop_position_m, &mut errors);
         if !errors.is_empty() {
             return Err(ApiError::Invalid(errors));
         }
@@ -204,7 +207,11 @@ impl SizeRequest {
                     samples: 2,
                     ring_width_m: None,
                     radial_layers: None,
+                    stop_position_m: self.stop_position_m,
+                    run_out: false,
                 },
+                seek: self.vary.seek,
+                tolerances: self.tolerances.clone(),
             },
             hot_temperature_c: self.hot_temperature_c,
             tolerances: self.tolerances,
@@ -225,14 +232,20 @@ pub struct AchievedDto {
 /// Response of `POST /v1/size`.
 #[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
 pub struct SizeResponse {
-    /// Whether some value in the range meets every target with the safety factor, cold and
-    /// hot.
+    /// Whether some value in the range meets every target with the safety factor at every
+    /// condition: cold and hot, and with `tolerances` at every tolerance corner (feasibility
+    /// is decided at the worst corner, hot, for a speed limit).
     pub feasible: bool,
-    /// The smallest such value, in the field's unit; null when infeasible.
-    pub value: Option<f64>,
+    /// Which end was sought: `smallest` or `largest`.
+    pub seek: Seek,
+    /// The smallest (or, seeking `largest`, the largest) such value, in the field's unit; a
+    /// whole number for integer fields (`magnets.count`); null when infeasible.
+    #[schema(value_type = Option<f64>)]
+    pub value: Option<serde_json::Number>,
     /// The value reported in `design` and `achieved`: `value` when feasible, otherwise the
-    /// value in the range that comes closest.
-    pub best_value: f64,
+    /// value in the range that comes closest; a whole number for integer fields.
+    #[schema(value_type = f64)]
+    pub best_value: serde_json::Number,
     /// The design with the field set to `best_value` (a complete design object, ready for
     /// `/v1/force-curve` or `/v1/simulate`).
     pub design: DesignSpec,
@@ -244,8 +257,21 @@ pub struct SizeResponse {
     /// null when unbounded (every target met whatever the size, e.g. a minimum time on a
     /// stroke that never exits).
     pub margin: Option<f64>,
-    /// The same ratio per target, by target name; null when unbounded.
+    /// The same ratio per target, by target name, at the target's worst condition; null when
+    /// unbounded.
     pub margins: BTreeMap<String, Option<f64>>,
+    /// The ratio per target over the nominal design (no tolerances), cold and hot.
+    pub margins_nominal: BTreeMap<String, Option<f64>>,
+    /// The ratio per target over the tolerance corners, cold and hot; present when
+    /// `tolerances` were given.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub margins_worst_corner: Option<BTreeMap<String, Option<f64>>>,
+    /// Which condition governs each target: the corner (`nominal` or the tolerance corner,
+    /// e.g. `remanence- conductivity- wall-`) and the temperature (`cold` or `hot`).
+    pub governing: BTreeMap<String, Governing>,
+    /// Tolerance corners of the reported design that are not valid designs (they count as
+    /// missing every target), with the reason; empty when none.
+    pub failed_corners: Vec<String>,
     /// Designs evaluated during the search (each cold and hot).
     pub evaluations: u64,
     /// Worst-case bands of the metrics over the tolerance corners, at the sized design, hot;
@@ -272,14 +298,30 @@ impl SizeResponse {
     /// due, and writes unbounded margins as null.
     pub fn from_model(
         result: SizeResult,
+        path: &str,
         tolerance_bands: Option<ToleranceBands>,
     ) -> Result<Self, ApiError> {
         let mut check = FiniteCheck::default();
         let (cautions, caution_details) = cautions(result.cautions);
+        let integer = designpath::is_integer_path(path);
+        let margin_map = |m: BTreeMap<String, f64>| -> BTreeMap<String, Option<f64>> {
+            m.into_iter()
+                .map(|(k, v)| (k, Some(v).filter(|m| m.is_finite())))
+                .collect()
+        };
+        let best_value = field_number(check.num("best_value", result.best_value), integer)
+            .unwrap_or_else(|| serde_json::Number::from(0));
         let response = Self {
             feasible: result.feasible,
-            value: check.opt("value", result.value),
-            best_value: check.num("best_value", result.best_value),
+            seek: result.seek,
+            value: check
+                .opt("value", result.value)
+                .and_then(|v| field_number(v, integer)),
+            best_value,
+            margins_nominal: margin_map(result.margins_nominal),
+            margins_worst_corner: result.margins_worst_corner.map(margin_map),
+            governing: result.governing,
+            failed_corners: result.failed_corners,
             design: result.design,
             achieved: AchievedDto {
                 cold: finite_map(result.achieved_cold),
@@ -346,6 +388,7 @@ pub async fn size_design(
 ) -> Result<Response, ApiError> {
     negotiate::choose(&headers, &[Media::Json])?;
     let valid = request.validate(&state.limits)?;
+    let path = valid.job.path.clone();
     let limits = Arc::clone(&state.limits);
     // The runner answers 503 once the request deadline passes and raises the job's token; the
     // search, and the stroke or solver inside it, then stop at their next check instead of
@@ -378,5 +421,5 @@ pub async fn size_design(
             Ok((result, bands))
         })
         .await?;
-    SizeResponse::from_model(result, bands).map(|r| Json(r).into_response())
+    SizeResponse::from_model(result, &path, bands).map(|r| Json(r).into_response())
 }

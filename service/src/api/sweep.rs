@@ -29,8 +29,8 @@
 //!   the other varied fields (see [`crate::plot::sweep_svg`]).
 
 use crate::api::force_curve::check_design;
-use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
-use crate::api::simulate::{StartState, check_stroke_setup};
+use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions, field_number};
+use crate::api::simulate::{StartState, check_stop, check_stroke_setup};
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
 use crate::plot::{self, PlotAxis};
@@ -202,6 +202,12 @@ pub struct SweepRequest {
     /// Fidelity of the strokes of stroke metrics (as in `/v1/simulate`).
     #[serde(default)]
     pub fidelity: Fidelity,
+    /// Where the load meets its end stop in the strokes of stroke metrics and targets: the
+    /// position of the stack centre, m; default: the tube's far end (`tube.length_m`, which
+    /// follows a varied tube length).
+    #[serde(default)]
+    #[schema(minimum = -100.0, maximum = 100.0)]
+    pub stop_position_m: Option<f64>,
 }
 
 /// Adds the model's validation of a base design to `errors`, leaving out problems of the
@@ -261,6 +267,7 @@ impl SweepRequest {
             &mut errors,
             &mut too_large,
         );
+        check_stop(&self.start, self.stop_position_m, &mut errors);
         let mut axes = Vec::with_capacity(self.vary.len());
         for (i, axis) in self.vary.iter().enumerate() {
             match axis {
@@ -314,6 +321,8 @@ impl SweepRequest {
             samples: 2,
             ring_width_m: None,
             radial_layers: None,
+            stop_position_m: self.stop_position_m,
+            run_out: false,
         };
         let model = composite_model(&self.metrics, self.fidelity);
         let plan = SweepPlan::new(self.design, axes, self.metrics, stroke, limits.clone())?;
@@ -333,8 +342,9 @@ impl SweepRequest {
 pub struct SweepAxisDto {
     /// Dotted path of the varied field, as requested.
     pub path: String,
-    /// Values the field takes, in the field's unit.
-    pub values: Vec<f64>,
+    /// Values the field takes, in the field's unit; integers for integer fields.
+    #[schema(value_type = Vec<f64>)]
+    pub values: Vec<serde_json::Number>,
 }
 
 /// One point of a sweep.
@@ -343,7 +353,9 @@ pub struct SweepPointDto {
     /// Position of the point in the grid: row-major over `axes` as the response lists them
     /// (the last axis fastest).
     pub index: u64,
-    /// Value of each varied field at this point, by path as requested.
+    /// Value of each varied field at this point, by path as requested; integer fields
+    /// (`magnets.count`) as integers.
+    #[serde(serialize_with = "whole_inputs")]
     pub inputs: BTreeMap<String, f64>,
     /// Each requested metric by name; null where it does not exist (no terminal speed when the
     /// brake cannot hold the load, no exit time when the stack never exits) or the point
@@ -355,6 +367,28 @@ pub struct SweepPointDto {
     /// Estimated relative numerical error of this point's metrics (the change between two
     /// resolutions), or null when not estimated.
     pub error_estimate_relative: Option<f64>,
+    /// This point's cautions as text (runaway, margin against it, clearance, magnet
+    /// temperature, heating...), decided as on `/v1/force-curve` and `/v1/simulate`; the
+    /// standing safety caution is the response's, not repeated here.
+    pub cautions: Vec<String>,
+    /// The kinds of those cautions, in the same order (e.g. `runaway`).
+    pub caution_kinds: Vec<CautionKind>,
+}
+
+/// Writes the inputs of integer fields (`magnets.count`) as JSON integers.
+fn whole_inputs<S: serde::Serializer>(
+    inputs: &BTreeMap<String, f64>,
+    serializer: S,
+) -> Result<S::Ok, S::Error> {
+    use serde::ser::SerializeMap;
+    let mut map = serializer.serialize_map(Some(inputs.len()))?;
+    for (k, v) in inputs {
+        match field_number(*v, designpath::is_integer_path(k)) {
+            Some(n) => map.serialize_entry(k, &n)?,
+            None => map.serialize_entry(k, v)?,
+        }
+    }
+    map.end()
 }
 
 impl From<SweepPoint> for SweepPointDto {
@@ -370,6 +404,8 @@ impl From<SweepPoint> for SweepPointDto {
                 .collect(),
             error: p.error,
             error_estimate_relative: p.error_estimate_relative.filter(|x| x.is_finite()),
+            caution_kinds: p.cautions.iter().map(|c| c.kind).collect(),
+            cautions: p.cautions.into_iter().map(|c| c.message).collect(),
         }
     }
 }
@@ -447,7 +483,11 @@ fn axes_dto(plan: &SweepPlan) -> Vec<SweepAxisDto> {
         .iter()
         .map(|a| SweepAxisDto {
             path: a.path.clone(),
-            values: a.values.clone(),
+            values: a
+                .values
+                .iter()
+                .filter_map(|v| field_number(*v, designpath::is_integer_path(&a.path)))
+                .collect(),
         })
         .collect()
 }
@@ -545,6 +585,7 @@ struct StreamState {
     deadline: Instant,
     timeout_s: u64,
     started: std::time::Instant,
+    total: u64,
     sent: u64,
     failed: u64,
     finished: bool,
@@ -561,6 +602,14 @@ impl StreamState {
             reason,
         }))
     }
+}
+
+/// Why a stream ended at its deadline.
+fn timeout_reason(timeout_s: u64) -> String {
+    format!(
+        "the request timeout of {timeout_s} s passed; the points sent are valid. Ask for fewer \
+         points or cheaper metrics."
+    )
 }
 
 /// The NDJSON body: the header, each point as the computation hands it over, and the end line
@@ -588,19 +637,20 @@ fn ndjson_body(state: StreamState) -> Body {
                 bytes
             }
             Some(Some(Line::Done)) => st.end(None),
+            // The computation ended without its `Done` (it was cancelled): complete only if
+            // every point arrived anyway. The timer wheel fires up to a tick after the job's
+            // token (which reads the clock), so the clock, not the timer, says whether the
+            // deadline is why.
+            Some(None) if st.sent >= st.total => st.end(None),
+            Some(None) if Instant::now() >= st.deadline => {
+                st.end(Some(timeout_reason(st.timeout_s)))
+            }
             Some(None) => st.end(Some(
                 "the computation stopped before every point was computed; the points sent are \
                  valid"
                     .to_string(),
             )),
-            None => {
-                let reason = format!(
-                    "the request timeout of {} s passed; the points sent are valid. Ask for \
-                     fewer points or cheaper metrics.",
-                    st.timeout_s
-                );
-                st.end(Some(reason))
-            }
+            None => st.end(Some(timeout_reason(st.timeout_s))),
         };
         Some((Ok(bytes), st))
     });
@@ -628,6 +678,7 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
     let (tx, rx) = mpsc::channel::<Line>(STREAM_BUFFER_LINES);
     let runtime = tokio::runtime::Handle::current();
     let plan = sweep.plan;
+    let total = plan.len() as u64;
     state
         .jobs
         .start("sweep", move |cancel| {
@@ -669,7 +720,9 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
                     send(Line::Point { bytes, failed });
                 },
             );
-            if send(Line::Done) {
+            // A cancelled run dropped the points it had not finished: no `Done`, so the stream
+            // ends incomplete (see `ndjson_body`).
+            if !cancel.is_cancelled() && send(Line::Done) {
                 "ok"
             } else if Instant::now() >= deadline {
                 "timeout"
@@ -684,6 +737,7 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
         deadline,
         timeout_s: timeout.as_secs(),
         started: std::time::Instant::now(),
+        total,
         sent: 0,
         failed: 0,
         finished: false,
