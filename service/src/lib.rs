@@ -14,6 +14,7 @@ pub mod access;
 pub mod api;
 pub mod cache;
 pub mod config;
+pub mod csv;
 pub mod extract;
 pub mod jobs;
 pub mod middleware;
@@ -21,6 +22,7 @@ pub mod negotiate;
 pub mod plot;
 pub mod problem;
 pub mod ratelimit;
+pub mod serde_words;
 pub mod state;
 pub mod telemetry;
 

@@ -5,6 +5,8 @@
 
 mod access;
 mod concurrency;
+mod csv_answers;
+mod error_texts;
 mod errors;
 mod examples;
 mod force_curve;

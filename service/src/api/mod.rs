@@ -5,6 +5,7 @@ pub mod force_curve;
 pub mod health;
 pub mod materials;
 pub mod ops;
+pub mod point_metrics;
 pub mod report;
 pub mod simulate;
 pub mod size;
