@@ -50,6 +50,9 @@ if [[ ! -x "${venv}/bin/schemathesis" ]]; then
 fi
 "${venv}/bin/schemathesis" --version
 
+echo "== fuzz: request examples of the document against their schemas"
+"${venv}/bin/python" .ci/check_examples.py openapi/openapi.json
+
 echo "== fuzz: building the release binary"
 cargo build --release --quiet -p ringdrag-service --bin ringdrag
 binary="${CARGO_TARGET_DIR:-target}/release/ringdrag"

@@ -15,6 +15,7 @@ pub mod api;
 pub mod cache;
 pub mod config;
 pub mod csv;
+pub mod docs;
 pub mod extract;
 pub mod jobs;
 pub mod middleware;
@@ -38,6 +39,7 @@ use problem::ApiError;
 pub fn router(state: AppState, config: &Config) -> Router {
     let (routes, _document) = api::api_router().split_for_parts();
     let routes = routes
+        .merge(docs::routes())
         .fallback(not_found)
         .method_not_allowed_fallback(method_not_allowed)
         .with_state(state);
@@ -56,6 +58,7 @@ async fn method_not_allowed() -> ApiError {
 pub fn openapi() -> utoipa::openapi::OpenApi {
     let mut document = api::api_router().into_openapi();
     access::document(&mut document);
+    docs::add_request_examples(&mut document);
     document
 }
 

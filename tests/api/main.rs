@@ -14,6 +14,7 @@ mod helpers;
 mod materials;
 mod openapi;
 mod operations;
+mod pages;
 mod plots;
 mod shedding;
 mod simulate;
