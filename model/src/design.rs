@@ -307,6 +307,8 @@ impl Design {
         let positive = |path: &str, v: f64, max: f64, errs: &mut Vec<FieldError>| {
             if !v.is_finite() {
                 errs.push(FieldError::new(path, "must be a finite number"));
+            } else if v.is_subnormal() {
+                errs.push(FieldError::new(path, SUBNORMAL));
             } else if v <= 0.0 {
                 errs.push(FieldError::new(path, "must be greater than zero"));
             } else if v > max {
@@ -699,9 +701,16 @@ impl Design {
     }
 }
 
+/// Message for a subnormal input: so close to zero that products with it underflow, which
+/// would surface later as a result that cannot be computed instead of a named field.
+const SUBNORMAL: &str = "is a subnormal number (below 2.2e-308 in magnitude), too small to compute \
+                         with; give 0 where zero is allowed, or a physically meaningful value";
+
 fn range(errs: &mut Vec<FieldError>, path: &str, v: f64, lo: f64, hi: f64) {
     if !v.is_finite() {
         errs.push(FieldError::new(path, "must be a finite number"));
+    } else if v.is_subnormal() {
+        errs.push(FieldError::new(path, SUBNORMAL));
     } else if v < lo || v > hi {
         let lo_exclusive = lo == f64::MIN_POSITIVE;
         errs.push(FieldError::new(
@@ -812,6 +821,29 @@ pub(crate) mod tests {
         };
         assert!(errs.iter().any(|e| e.path == "magnets.length_m"));
         assert!(errs.iter().any(|e| e.path == "magnets.inner_diameter_m"));
+    }
+
+    #[test]
+    fn subnormal_inputs_are_named() {
+        // 5e-324 is the smallest subnormal double (source: IEEE 754-2008, binary64).
+        let mut s = sample_spec();
+        s.magnets.outer_diameter_m = 5e-324;
+        s.load.applied_force_n = -1e-310;
+        s.magnets.spacer_length_m = 1e-309;
+        let Err(ModelError::Invalid(errs)) = Design::from_spec(&s) else {
+            panic!("must fail")
+        };
+        for p in [
+            "magnets.outer_diameter_m",
+            "load.applied_force_n",
+            "magnets.spacer_length_m",
+        ] {
+            assert!(
+                errs.iter()
+                    .any(|e| e.path == p && e.message.contains("subnormal")),
+                "{p}: {errs:?}"
+            );
+        }
     }
 
     #[test]

@@ -50,7 +50,7 @@ pub fn drag_profile(
 ) -> Result<DragProfile, ModelError> {
     let grid = RingGrid::new(design, ring_width_m, radial_layers, None, limits)?;
     let reach = window_half_length_m(design, 0.0);
-    let table = FluxTable::new(&design.magnets, &grid, reach);
+    let table = FluxTable::checked(&design.magnets, &grid, reach, limits)?;
     Ok(DragProfile::new(&grid, &table, reach))
 }
 
@@ -65,8 +65,13 @@ pub fn long_tube_damping_n_s_per_m(grid: &RingGrid, table: &FluxTable, reach_m: 
 }
 
 /// q(zeta) = sum over layers of (dPhi/dzeta)^2 / R on the table grid, and the ring sums of it.
+/// The rings sample q with stride K = [`POINTS_PER_RING`], so `cum` holds running sums of q
+/// along each residue class modulo K: any ring sum is a difference of two entries, and the
+/// whole profile costs time linear in its length (a direct sum per position would cost
+/// positions x rings, quadratic in the tube length in ring widths).
 struct RingSums {
-    q: Vec<f64>,
+    /// cum[i] = q[i] + cum[i - K], with q zero beyond the reach.
+    cum: Vec<f64>,
     half: i64,
     reach_n: i64,
     step: i64,
@@ -77,26 +82,36 @@ impl RingSums {
         let h = table.spacing_m();
         let half = table.half_points();
         let reach_n = ((reach_m / h).floor() as i64).min(half);
-        let q = (-half..=half)
+        let q: Vec<f64> = (-half..=half)
             .map(|n| {
+                if n.abs() > reach_n {
+                    return 0.0;
+                }
                 (0..grid.layers)
                     .map(|l| table.sample(l, n).powi(2) / grid.layer_resistance_ohm[l])
                     .sum()
             })
             .collect();
+        let k = POINTS_PER_RING as usize;
+        let mut cum = q;
+        for i in k..cum.len() {
+            cum[i] += cum[i - k];
+        }
         Self {
-            q,
+            cum,
             half,
             reach_n,
             step: POINTS_PER_RING / PROFILE_POINTS_PER_RING,
         }
     }
 
-    fn q_at(&self, n: i64) -> f64 {
-        if n.abs() > self.reach_n {
+    /// cum at table index `n` (relative to zeta = 0), zero below the table.
+    fn cum_at(&self, n: i64) -> f64 {
+        let i = n + self.half;
+        if i < 0 {
             0.0
         } else {
-            self.q[(n + self.half) as usize]
+            self.cum.get(i as usize).copied().unwrap_or(0.0)
         }
     }
 
@@ -111,9 +126,15 @@ impl RingSums {
             Some(n) => (j_lo.max(0), j_hi.min(n as i64 - 1)),
             None => (j_lo, j_hi),
         };
-        (j_lo..=j_hi)
-            .map(|j| self.q_at((2 * j + 1) * k / 2 - shift))
-            .sum()
+        // Keep the ring indices on the table (q is zero beyond the reach anyway).
+        let j_lo = j_lo.max(((shift - self.half) as f64 / k as f64 - 0.5).ceil() as i64);
+        let j_hi = j_hi.min(((shift + self.half) as f64 / k as f64 - 0.5).floor() as i64);
+        if j_lo > j_hi {
+            return 0.0;
+        }
+        let n_hi = (2 * j_hi + 1) * k / 2 - shift;
+        let n_lo = (2 * j_lo + 1) * k / 2 - shift;
+        self.cum_at(n_hi) - self.cum_at(n_lo - k)
     }
 }
 

@@ -11,6 +11,7 @@
 
 pub mod banded;
 pub mod bessel;
+pub mod cancel;
 pub mod caution;
 pub mod design;
 pub mod designpath;
@@ -36,6 +37,7 @@ pub mod symeig;
 pub mod tolerance;
 pub mod transient;
 
+pub use cancel::CancelToken;
 pub use caution::{Caution, CautionKind};
 pub use design::Design;
 pub use error::{FieldError, ModelError};

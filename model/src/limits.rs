@@ -2,6 +2,7 @@
 //! them from its configuration; exceeding one is a [`ModelError::TooLarge`] naming the field
 //! that drives the size.
 
+use crate::cancel::CancelToken;
 use crate::error::ModelError;
 
 /// Caps on the size of a job.
@@ -21,6 +22,18 @@ pub struct Limits {
     pub max_radial_layers: usize,
     /// Most points in one sweep.
     pub max_sweep_points: usize,
+    /// Most entries (radial layers x axial points) in one tabulation of the stack's flux
+    /// derivative, and in its drag profile; 8 bytes each.
+    pub max_table_entries: usize,
+    /// Most evaluations of the loop-mutual kernel (complete elliptic integrals, about 0.1 us
+    /// each) to build one flux table.
+    pub max_kernel_evaluations: usize,
+    /// Most evaluations of the stack factor (Gauss points x magnets) in the spectral solver's
+    /// product integration, about 20 ns each.
+    pub max_quadrature_terms: usize,
+    /// Stops the job cooperatively when its deadline passes or its caller goes away; the
+    /// default never cancels.
+    pub cancel: CancelToken,
 }
 
 impl Default for Limits {
@@ -33,11 +46,23 @@ impl Default for Limits {
             max_samples: 20_000,
             max_radial_layers: 32,
             max_sweep_points: 10_000,
+            max_table_entries: 1 << 22,
+            max_kernel_evaluations: 20_000_000,
+            max_quadrature_terms: 100_000_000,
+            cancel: CancelToken::never(),
         }
     }
 }
 
 impl Limits {
+    /// These limits with `cancel` as the job's cancellation token.
+    pub fn with_cancel(&self, cancel: CancelToken) -> Self {
+        Self {
+            cancel,
+            ..self.clone()
+        }
+    }
+
     /// Checks `value <= cap`, naming `path` otherwise.
     pub fn check(path: &str, what: &str, value: usize, cap: usize) -> Result<(), ModelError> {
         if value > cap {

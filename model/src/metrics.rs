@@ -121,7 +121,7 @@ pub fn evaluate(
     let steady: Option<SteadyMetrics> = if metrics.iter().any(|m| m.needs_steady()) {
         Some(match solver {
             Some(s) => s.metrics(design),
-            None => SteadySolver::new(design, None)?.metrics(design),
+            None => SteadySolver::new_within(design, None, limits)?.metrics(design),
         })
     } else {
         None

@@ -182,6 +182,7 @@ impl Search<'_> {
         if !(self.keep_going)() {
             return Err(ModelError::Cancelled);
         }
+        self.limits.cancel.check()?;
         self.evaluations += 1;
         let cold = Design::from_spec(&self.spec_at(x)?)?;
         let hot = match self.req.hot_temperature_c {

@@ -41,6 +41,18 @@ use crate::report::{Discretisation, Fidelity, ModelInfo};
 use crate::symeig::{jacobi, jacobi_from};
 use std::f64::consts::PI;
 
+/// Smallest radial clearance (bore radius minus magnet radius) that the solver resolves, m.
+/// Ground bores, magnet coatings and tube ovality vary by micrometres, so a nominal clearance
+/// below this is not a manufacturable gap: the wavenumber reach is computed as if the clearance
+/// were this value (bounded work) and a caution says so.
+pub const MIN_MODEL_CLEARANCE_M: f64 = 1.0e-6;
+
+/// An interval of the wavenumber grid that spans at least this many periods of the slowest
+/// oscillation of the stack factor takes the factor's mean instead of resolving it: the
+/// neglected oscillating part integrates against the smooth hat functions to a relative
+/// O((2 pi periods)^-2) (integration by parts; the hats are continuous).
+const AVERAGE_PERIODS: f64 = 32.0;
+
 /// Radial layers used by default, before the wall-thickness rule (see [`default_layers`]).
 pub const MIN_LAYERS: usize = 4;
 /// Hard cap on radial layers.
@@ -93,6 +105,16 @@ pub fn default_layers(design: &Design) -> usize {
 impl SteadySolver {
     /// Builds the solver with `radial_layers` layers (default from [`default_layers`]).
     pub fn new(design: &Design, radial_layers: Option<usize>) -> Result<Self, ModelError> {
+        Self::new_within(design, radial_layers, &Limits::default())
+    }
+
+    /// Like [`SteadySolver::new`], within the work `limits` and stopping when their
+    /// cancellation token fires.
+    pub fn new_within(
+        design: &Design,
+        radial_layers: Option<usize>,
+        limits: &Limits,
+    ) -> Result<Self, ModelError> {
         let layers = radial_layers.unwrap_or_else(|| default_layers(design));
         if layers == 0 || layers > MAX_LAYERS {
             return Err(ModelError::field(
@@ -100,10 +122,15 @@ impl SteadySolver {
                 format!("must be between 1 and {MAX_LAYERS}"),
             ));
         }
-        Ok(Self::build(design, layers, FINE))
+        Self::build(design, layers, FINE, limits)
     }
 
-    fn build(design: &Design, layers: usize, grid: Grid) -> Self {
+    fn build(
+        design: &Design,
+        layers: usize,
+        grid: Grid,
+        limits: &Limits,
+    ) -> Result<Self, ModelError> {
         let tube = &design.tube;
         let stack = &design.magnets;
         let (a, b) = (tube.inner_radius_m, tube.outer_radius_m);
@@ -122,7 +149,7 @@ impl SteadySolver {
 
         // Graded wavenumber grid: kappa = kc (e^u - 1), fine near zero (scale 1/b) and
         // reaching past the decay length of the magnet-to-wall gap.
-        let gap = a - stack.outer_radius_m;
+        let gap = (a - stack.outer_radius_m).max(MIN_MODEL_CLEARANCE_M);
         let kc = 0.25 / b;
         let kmax = (grid.reach_efolds / (2.0 * gap))
             .max(60.0 / b)
@@ -133,7 +160,7 @@ impl SteadySolver {
             .map(|i| kc * (umax * i as f64 / (n_nodes - 1) as f64).exp_m1())
             .collect();
 
-        let weights = stack_weights(design, &kappas);
+        let weights = stack_weights(design, &kappas, limits)?;
         let ks = stack.surface_current_a_per_m();
         let (ro, ri) = (stack.outer_radius_m, stack.inner_radius_m);
 
@@ -147,6 +174,7 @@ impl SteadySolver {
             if kappa == 0.0 || weight == 0.0 {
                 continue;
             }
+            limits.cancel.check()?;
             // Scaled Bessel values once per radius; the layer radii ascend, so for j <= i,
             // Mhat_ij = 2 pi mu0 r_j r_i I1(kappa r_j) K1(kappa r_i).
             for i in 0..layers {
@@ -195,11 +223,11 @@ impl SteadySolver {
                 time_scale,
             });
         }
-        Self {
+        Ok(Self {
             nodes,
             layers,
             max_kappa: kmax,
-        }
+        })
     }
 
     /// Braking force at steady speed `speed_m_per_s` (> 0), N. Even in v by symmetry of the tube.
@@ -402,12 +430,59 @@ pub fn mhat(kappa: f64, r1: f64, r2: f64) -> f64 {
 /// stack factor against the hat functions of the node grid. Sub-panels of four Gauss
 /// points, each at most a quarter period of the fastest oscillation of |s|^2, so the
 /// oscillation is integrated to near machine precision.
-fn stack_weights(design: &Design, kappas: &[f64]) -> Vec<f64> {
+///
+/// Bounded work: kappa^2 |s|^2 = |sum_k c_k e^{-i kappa e_k}|^2 over the stack's current-sheet
+/// ends e_k (coefficients c_k), whose mean over the oscillation is sum_k c_k^2. An interval
+/// spanning at least [`AVERAGE_PERIODS`] periods of the slowest cross term (the smallest end
+/// separation) integrates that mean against the hats; so the number of panels grows with the
+/// stack length times the wavenumber where averaging starts, not with the reach set by the
+/// clearance. The panel count is estimated first and refused above
+/// `limits.max_quadrature_terms`.
+fn stack_weights(design: &Design, kappas: &[f64], limits: &Limits) -> Result<Vec<f64>, ModelError> {
     let stack = &design.magnets;
     let offsets: Vec<(f64, f64)> = stack.magnets().collect();
     let lm = stack.magnet_length_m;
     let span = stack.total_length_m();
     let quarter = 0.25 * 2.0 * PI / span;
+    let ends = crate::transient::fluxtable::sheet_ends(stack);
+    let mean: f64 = ends.iter().map(|(_, c)| c * c).sum();
+    let mut d_min = f64::INFINITY;
+    for (k, (ek, _)) in ends.iter().enumerate() {
+        for (el, _) in &ends[k + 1..] {
+            let d = (ek - el).abs();
+            if d > 0.0 {
+                d_min = d_min.min(d);
+            }
+        }
+    }
+    let average_len = AVERAGE_PERIODS * 2.0 * PI / d_min;
+    let exact_panels = |k0: f64, len: f64| -> Option<f64> {
+        (k0 == 0.0 || len < average_len).then(|| (len / quarter).ceil().max(1.0))
+    };
+    let terms: f64 = kappas
+        .windows(2)
+        .map(|p| exact_panels(p[0], p[1] - p[0]).map_or(4.0, |n| 4.0 * n * offsets.len() as f64))
+        .sum();
+    if !(terms <= limits.max_quadrature_terms as f64) {
+        return Err(ModelError::TooLarge {
+            path: if stack.count > 1 && stack.spacer_length_m > 0.0 {
+                "design.magnets.spacer_length_m".into()
+            } else if stack.count > 1 {
+                "design.magnets.count".into()
+            } else {
+                "design.magnets.length_m".into()
+            },
+            message: format!(
+                "the spectral quadrature of the stack factor would take {} terms, above the service \
+                 limit of {}: a stack {} m long with ends as close as {} m; use fewer magnets, \
+                 a shorter stack or spacers that are either zero or not much shorter than the magnets",
+                crate::error::show(terms),
+                limits.max_quadrature_terms,
+                crate::error::show(span),
+                crate::error::show(d_min)
+            ),
+        });
+    }
     let s2 = |k: f64| {
         let shape = if k == 0.0 {
             lm
@@ -432,7 +507,19 @@ fn stack_weights(design: &Design, kappas: &[f64]) -> Vec<f64> {
     for i in 0..kappas.len().saturating_sub(1) {
         let (k0, k1) = (kappas[i], kappas[i + 1]);
         let len = k1 - k0;
-        let panels = (len / quarter).ceil().max(1.0) as usize;
+        limits.cancel.check()?;
+        let Some(panels) = exact_panels(k0, len) else {
+            // The mean sum_k c_k^2 / kappa^2 against the two hats: smooth, one 4-point rule.
+            for &(x, gw) in &G {
+                let k = k0 + 0.5 * len * (1.0 + x);
+                let f = mean / (k * k) * 0.5 * len * gw;
+                let t = (k - k0) / len;
+                w[i] += f * (1.0 - t);
+                w[i + 1] += f * t;
+            }
+            continue;
+        };
+        let panels = panels as usize;
         let h = len / panels as f64;
         for p in 0..panels {
             let mid = k0 + (p as f64 + 0.5) * h;
@@ -445,7 +532,7 @@ fn stack_weights(design: &Design, kappas: &[f64]) -> Vec<f64> {
             }
         }
     }
-    w
+    Ok(w)
 }
 
 /// Default speeds: 40 log-spaced points from well below the terminal (or critical) speed to
@@ -497,8 +584,8 @@ pub fn force_curve(
         ));
     }
     let layers = opts.radial_layers.unwrap_or_else(|| default_layers(design));
-    let solver = SteadySolver::build(design, layers, FINE);
-    let check = SteadySolver::build(design, layers.div_ceil(2).max(2), COARSE);
+    let solver = SteadySolver::build(design, layers, FINE, limits)?;
+    let check = SteadySolver::build(design, layers.div_ceil(2).max(2), COARSE, limits)?;
     let metrics = solver.metrics(design);
     let SteadyMetrics {
         damping_n_s_per_m: damping,
@@ -535,6 +622,20 @@ pub fn force_curve(
     let mut cautions = vec![Caution::standing_safety()];
     for c in &design.cautions {
         push_unique(&mut cautions, c.clone());
+    }
+    let clearance = design.clearance_m();
+    if clearance < MIN_MODEL_CLEARANCE_M {
+        cautions.push(Caution::new(
+            CautionKind::ModelLimit,
+            format!(
+                "Radial clearance {} m is below the {} m that manufacturing can hold; the \
+                 wavenumber reach was computed as if the clearance were {} m, so the near field of \
+                 a nominal sub-micrometre gap is not resolved (braking may be understated).",
+                crate::error::show(clearance),
+                crate::error::show(MIN_MODEL_CLEARANCE_M),
+                crate::error::show(MIN_MODEL_CLEARANCE_M)
+            ),
+        ));
     }
     if terminal.is_none() {
         cautions.push(Caution::new(

@@ -265,14 +265,22 @@ impl SweepPlan {
         }
     }
 
+    /// This plan with `cancel` as its cancellation token (see [`SweepPlan::run_while`]).
+    pub fn with_cancel(mut self, cancel: crate::cancel::CancelToken) -> Self {
+        self.limits.cancel = cancel;
+        self
+    }
+
     /// Runs every point in parallel, handing each to `sink` as it finishes (in no fixed order).
     pub fn run(&self, sink: impl Fn(SweepPoint) + Sync + Send) {
         self.run_while(|| true, sink);
     }
 
     /// Like [`SweepPlan::run`], but a point not yet started is skipped (and not handed to the
-    /// sink) once `keep_going` answers false: a caller whose client has gone, or whose deadline
-    /// has passed, stops the remaining work. Points already running finish.
+    /// sink) once `keep_going` answers false or the plan's cancellation token
+    /// (`Limits::cancel`) fires: a caller whose client has gone, or whose deadline has passed,
+    /// stops the remaining work. Points already running stop at their next cancellation check
+    /// and are dropped too.
     pub fn run_while(
         &self,
         keep_going: impl Fn() -> bool + Sync + Send,
@@ -293,7 +301,7 @@ impl SweepPlan {
             }
         };
         (0..self.len()).into_par_iter().for_each(|index| {
-            if !keep_going() {
+            if !keep_going() || self.limits.cancel.is_cancelled() {
                 release(index);
                 return;
             }
@@ -304,7 +312,8 @@ impl SweepPlan {
                     let s = match guard.as_ref() {
                         Some(s) => Arc::clone(s),
                         None => {
-                            let s = Arc::new(SteadySolver::new(&design, None)?);
+                            let s =
+                                Arc::new(SteadySolver::new_within(&design, None, &self.limits)?);
                             *guard = Some(Arc::clone(&s));
                             s
                         }
@@ -322,6 +331,11 @@ impl SweepPlan {
                 )
             });
             release(index);
+            // A point stopped by the job's cancellation is not a result: it is dropped like
+            // the points never started.
+            if matches!(values, Err(ModelError::Cancelled)) {
+                return;
+            }
             sink(self.point(index, values));
         });
     }

@@ -162,6 +162,7 @@ pub fn bands(
     let mut bands: BTreeMap<String, (Option<f64>, Option<f64>, bool)> = BTreeMap::new();
     let mut failed = Vec::new();
     for (label, design) in &corners {
+        limits.cancel.check()?;
         let values = match design {
             Ok(d) => evaluate(d, metrics, stroke, limits, None),
             Err(e) => Err(e.clone()),
@@ -181,6 +182,7 @@ pub fn bands(
                     }
                 }
             }
+            Err(ModelError::Cancelled) => return Err(ModelError::Cancelled),
             Err(e) => failed.push(format!("{label}: {e}")),
         }
     }

@@ -90,6 +90,11 @@ const INDUCTIVE_MECHANICAL_FRACTION: f64 = 1.0;
 /// multiply-adds.
 pub const MAX_BAND_ENTRIES: usize = 2 << 20;
 
+/// Quasi-static steps (tens of nanoseconds each) between two cancellation checks.
+const CANCEL_CHECK_STEPS: usize = 1024;
+/// Ring-circuit steps (up to milliseconds each with the largest band) between two checks.
+const CANCEL_CHECK_STEPS_INDUCTIVE: usize = 4;
+
 /// Every run has at least this many steps over `max_time_s`.
 const MIN_STEPS_PER_MAX_TIME: f64 = 100.0;
 /// Below this fraction of the expected speed, a stack with no drive beyond friction counts as
@@ -198,6 +203,8 @@ struct Plan {
     rules: EndRules,
     /// Long-tube quasi-static damping, N s/m.
     c_mid_n_s_per_m: f64,
+    /// The job's cancellation token, checked every few steps.
+    cancel: crate::cancel::CancelToken,
 }
 
 /// What a solver returns.
@@ -289,6 +296,7 @@ fn plan(design: &Design, opts: &StrokeOptions, limits: &Limits, c_mid: f64) -> P
         max_steps: limits.max_steps,
         rules,
         c_mid_n_s_per_m: c_mid,
+        cancel: limits.cancel.clone(),
     }
 }
 
@@ -329,6 +337,9 @@ fn run_quasi_static(plan: &Plan, profile: &DragProfile, dz: f64) -> Result<Outco
     let end = loop {
         if tally.steps >= plan.max_steps {
             return Err(too_many_steps(plan));
+        }
+        if tally.steps % CANCEL_CHECK_STEPS == 0 {
+            plan.cancel.check()?;
         }
         let dt = step_for_distance(v, plan.accel_bound_m_per_s2, STEP_FRACTION * dz)
             .min(dt_cap)
@@ -435,6 +446,9 @@ fn run_inductive(
         if tally.steps >= plan.max_steps {
             return Err(too_many_steps(plan));
         }
+        if tally.steps % CANCEL_CHECK_STEPS_INDUCTIVE == 0 {
+            plan.cancel.check()?;
+        }
         let remaining = plan.max_time_s - t;
         if st.dt_s > remaining {
             st.shrink_dt(remaining)?;
@@ -520,7 +534,7 @@ pub fn simulate_stroke(
     // fidelities for the expected speed.
     let qs_grid = RingGrid::new(design, opts.ring_width_m, opts.radial_layers, None, limits)?;
     let base_reach = window_half_length_m(design, 0.0);
-    let qs_table = FluxTable::new(&design.magnets, &qs_grid, base_reach);
+    let qs_table = FluxTable::checked(&design.magnets, &qs_grid, base_reach, limits)?;
     let profile = DragProfile::new(&qs_grid, &qs_table, base_reach);
     let c_mid = profile.mid_tube_n_s_per_m();
     let plan = plan(design, opts, limits, c_mid);
@@ -639,11 +653,15 @@ fn inductive_path(
         finite: true,
     };
     check_band(&grid, &circuit, mode, opts.radial_layers.is_some())?;
+    // The flux derivative beyond the base reach (half the stack plus the margin) is negligible
+    // (it falls as d^-4); the wake widens the current window, not the field, so the table
+    // reaches at most twice the base reach however fast the stack goes.
+    let table_reach = plan.reach_m.min(2.0 * ctx.base_reach_m);
     let own_table;
-    let table = if grid.layers == ctx.grid.layers && plan.reach_m <= ctx.base_reach_m {
+    let table = if grid.layers == ctx.grid.layers && table_reach <= ctx.base_reach_m {
         ctx.table
     } else {
-        own_table = FluxTable::new(&design.magnets, &grid, plan.reach_m);
+        own_table = FluxTable::checked(&design.magnets, &grid, table_reach, limits)?;
         &own_table
     };
     if opts.start_speed_m_per_s > 0.0 && opts.start_position_m + plan.reach_m > 0.0 {
@@ -674,8 +692,12 @@ fn inductive_path(
         &outcome,
         circuit.reach_rings() as f64 * grid.ring_width_m,
     );
-    info.error_estimate_relative =
-        Some(err.max(radial_error_estimate(design, ctx.grid, ctx.c_mid_n_s_per_m)));
+    info.error_estimate_relative = Some(err.max(radial_error_estimate(
+        design,
+        ctx.grid,
+        ctx.c_mid_n_s_per_m,
+        limits,
+    )?));
     Ok((outcome, info))
 }
 
@@ -694,7 +716,7 @@ fn quasi_static_path(
     let coarse_w = 2.0 * grid.ring_width_m;
     let axial_err = if coarse_w <= design.tube.length_m {
         let cg = RingGrid::new(design, Some(coarse_w), Some(grid.layers), None, limits)?;
-        let ct = FluxTable::new(&design.magnets, &cg, ctx.base_reach_m);
+        let ct = FluxTable::checked(&design.magnets, &cg, ctx.base_reach_m, limits)?;
         let cp = DragProfile::new(&cg, &ct, ctx.base_reach_m);
         let coarse = run_quasi_static(plan, &cp, cg.ring_width_m)?;
         headline_change(&outcome, &coarse)
@@ -713,8 +735,12 @@ fn quasi_static_path(
             ..Discretisation::default()
         },
     );
-    info.error_estimate_relative =
-        Some(axial_err.max(radial_error_estimate(design, grid, ctx.c_mid_n_s_per_m)));
+    info.error_estimate_relative = Some(axial_err.max(radial_error_estimate(
+        design,
+        grid,
+        ctx.c_mid_n_s_per_m,
+        limits,
+    )?));
     if reynolds_caution && ctx.reynolds > AUTO_INDUCTIVE_REYNOLDS {
         push_unique(
             cautions,
@@ -774,16 +800,21 @@ fn runaway_caution(design: &Design, plan: &Plan, tally: &Tally) -> Option<Cautio
 
 /// Radial resolution check: relative change of the long-tube damping when the layers of
 /// `grid` are doubled (up to 32), given its value `c_mid` at the grid's own layers.
-fn radial_error_estimate(design: &Design, grid: &RingGrid, c_mid: f64) -> f64 {
+fn radial_error_estimate(
+    design: &Design,
+    grid: &RingGrid,
+    c_mid: f64,
+    limits: &Limits,
+) -> Result<f64, ModelError> {
     let layers = (2 * grid.layers).min(32);
     if layers == grid.layers || c_mid <= 0.0 {
-        return 0.0;
+        return Ok(0.0);
     }
     let reach = window_half_length_m(design, 0.0);
     let fine = RingGrid::build(design, grid.ring_width_m, grid.rings, layers);
-    let table = FluxTable::new(&design.magnets, &fine, reach);
+    let table = FluxTable::checked(&design.magnets, &fine, reach, limits)?;
     let c_fine = crate::dragprofile::long_tube_damping_n_s_per_m(&fine, &table, reach);
-    (c_fine - c_mid).abs() / c_fine
+    Ok((c_fine - c_mid).abs() / c_fine)
 }
 
 /// Relative change of the headline number between two resolutions: exit time when both runs
@@ -967,7 +998,7 @@ pub fn constant_speed_force(
         limits.max_ring_cells,
     )?;
     let grid = RingGrid::build(design, dz, window_rings, probe.layers);
-    let table = FluxTable::new(&design.magnets, &grid, reach);
+    let table = FluxTable::checked(&design.magnets, &grid, reach, limits)?;
     let circuit = RingCircuit::new(
         &grid,
         RingCircuit::default_reach_rings(&grid, design.tube.outer_radius_m),
@@ -988,6 +1019,9 @@ pub fn constant_speed_force(
     Limits::check("speed_m_per_s", "time steps", total, limits.max_steps)?;
     let mut sum = 0.0;
     for k in 0..total {
+        if k % CANCEL_CHECK_STEPS_INDUCTIVE == 0 {
+            limits.cancel.check()?;
+        }
         let x_next = (k + 1) as f64 * speed_m_per_s * dt;
         st.prepare(x_next)?;
         let (em, _) = st.commit(speed_m_per_s);
@@ -1018,7 +1052,7 @@ pub fn simulate_stroke_dense_reference(
     validate(opts, design, limits)?;
     let qs_grid = RingGrid::new(design, opts.ring_width_m, opts.radial_layers, None, limits)?;
     let base_reach = window_half_length_m(design, 0.0);
-    let qs_table = FluxTable::new(&design.magnets, &qs_grid, base_reach);
+    let qs_table = FluxTable::checked(&design.magnets, &qs_grid, base_reach, limits)?;
     let profile = DragProfile::new(&qs_grid, &qs_table, base_reach);
     let plan = plan(design, opts, limits, profile.mid_tube_n_s_per_m());
     let grid = RingGrid::new(
@@ -1031,11 +1065,12 @@ pub fn simulate_stroke_dense_reference(
     // The whole tube is within reach of every ring: tabulate over the tube length.
     // Every ring is within reach of the stack while it is near the tube (beyond the table the
     // flux derivative counts as zero, as in the windowed solver).
-    let table = FluxTable::new(
+    let table = FluxTable::checked(
         &design.magnets,
         &grid,
         design.tube.length_m + design.magnets.total_length_m() + base_reach,
-    );
+        limits,
+    )?;
     let circuit = RingCircuit::new(&grid, grid.rings.saturating_sub(1));
     check_band(
         &grid,

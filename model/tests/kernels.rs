@@ -343,7 +343,8 @@ fn close_loops_logarithmic_limit() {
             err2 < bound2,
             "d/a = {ratio}: second-order error {err2:.2e}"
         );
-        // and the error shrinks with d/a like (d/a)^2.
+        // and the error shrinks with d/a like (d/a)^2 (source: the asymptotic series above;
+        // 1e-13: rounding, common practice).
         assert!(err < last_err || err < 1e-13);
         last_err = err;
     }
@@ -655,6 +656,7 @@ fn ring_resistance_against_ohms_law() {
         20,
         &gauss_legendre(8),
     );
+    // source: the conductance integral above, written here (common practice: 1e-13 rounding).
     assert!(rel_err(ring_resistance_ohm(sigma, ri, ro, dz), 1.0 / conductance) < 1e-13);
 }
 
@@ -848,6 +850,7 @@ fn flat_cell_mutual_against_exact_average() {
         };
         let err = rel_err(mutual_cells_h(&a, &b), exact);
         println!("flat cells {long} x {short}, radial neighbours: {err:.2e}");
+        // source: as above (the exact value of this test); 1e-4: common practice.
         assert!(err < 1e-4, "radial neighbours {long} x {short}: {err:.2e}");
     }
 }

@@ -116,10 +116,10 @@ proptest! {
         let even_alternating = s.polarity == Polarity::Alternating && s.count % 2 == 0;
         let scale = flux_scale(&s, r);
         if even_alternating {
-            // The mirror image is the reversed stack.
+            // The mirror image is the reversed stack (source: symmetry, common practice).
             prop_assert!((g_mirror - g_rev).abs() < 1e-12 * scale, "{g_mirror} vs {g_rev}");
         } else {
-            // The mirror image is the stack itself.
+            // The mirror image is the stack itself (source: symmetry, common practice).
             prop_assert!((g_mirror - g).abs() < 1e-12 * scale, "{g_mirror} vs {g}");
         }
     }
@@ -151,6 +151,7 @@ proptest! {
                     flux_derivative_wb_per_m(&one, r, zeta - offset)
                 })
                 .sum();
+            // source: superposition, as above (common practice; 1e-12 rounding).
             prop_assert!((g - aligned).abs() < 1e-12 * flux_scale(&s, r));
         }
     }

@@ -45,9 +45,11 @@ fn thin_wall_matches_the_dipole_law() {
 
 #[test]
 fn thick_wall_matches_the_integrated_dipole_law() {
-    // F = 15 mu0^2 m^2 sigma v (1/a^3 - 1/b^3) / 1024: the thin-wall law integrated across
-    // the wall (source: PHYSICS design note, from the law of Levin, da Silveira & Rizzato,
-    // Am. J. Phys. 74, 815, 2006).
+    // F = 15 mu0^2 m^2 sigma v (1/a^3 - 1/b^3) / 1024: the thin-wall law of Levin, da Silveira
+    // & Rizzato ("Electromagnetic braking: A simple quantitative model", Am. J. Phys. 74, 815,
+    // 2006) integrated across the wall, exact at low speed where the layers do not interact
+    // (source: that paper's law; the exact tube integral in fixtures/make_tube_force.py
+    // reproduces it to 3e-12).
     let d = small_magnet_in(0.02, 0.01);
     let m = d.magnets.dipole_moment_a_m2();
     let (a, b) = (d.tube.inner_radius_m, d.tube.outer_radius_m);
@@ -103,8 +105,9 @@ fn spectral_damping_equals_the_real_space_ring_sum() {
 
 #[test]
 fn damping_scales_with_conductivity() {
-    // Quasi-static braking is linear in sigma (source: PHYSICS sec. 4, F = -c v with
-    // c = sum (dPhi/dz)^2 / R and R proportional to 1/sigma; common practice).
+    // Quasi-static braking is linear in sigma (source: the low-speed law F ~ sigma v of
+    // Levin, da Silveira & Rizzato, Am. J. Phys. 74, 815, 2006; 1e-10: rounding only, as c is
+    // a sum of (dPhi/dz)^2 / R with R ~ 1/sigma, common practice).
     let d1 = small_magnet_in(0.013, 0.0015);
     let mut d2 = d1.clone();
     d2.tube = d1.tube.with_conductivity_scaled(2.0);
@@ -126,26 +129,33 @@ fn force_rises_then_falls_at_high_speed() {
     let s = SteadySolver::new(&d, None).expect("solver");
     let c = s.damping_n_s_per_m();
     let (vc, peak) = s.peak(1.0);
+    // Linear law at 1e-4 of the critical speed, corrections O(v^2): 1e-3 (common practice).
     assert!((s.force_n(vc * 1e-4) / (c * vc * 1e-4) - 1.0).abs() < 1e-3);
     let mut last = 0.0;
     for i in 1..=40 {
         let v = vc * i as f64 / 40.0;
         let f = s.force_n(v);
+        // source: as above (a single maximum).
         assert!(f > last, "F must rise below the critical speed");
         last = f;
     }
+    // The scan ends at the peak the solver found (rounding only; common practice).
     assert!((last - peak).abs() <= 1e-9 * peak);
     // A single current sheet far above the peak: F proportional to 1/v.
     let sheet = SteadySolver::new(&d, Some(1)).expect("solver");
     let (vs, _) = sheet.peak(1.0);
     let slope = |s: &SteadySolver, v: f64| (s.force_n(2.0 * v) / s.force_n(v)).ln() / 2.0_f64.ln();
     let thin = slope(&sheet, 40.0 * vs);
+    // source: as above (slope -1); the band allows the finite distance from the asymptote at
+    // 40 times the peak speed (common practice). Values of the force there are held to the
+    // exact integral in tests/highspeed.rs.
     assert!((-1.03..-0.95).contains(&thin), "sheet log-slope {thin}");
     // Resolved wall, skin depth well below the wall: F proportional to v^-1/2.
     let thick = slope(
         &SteadySolver::new(&d, Some(12)).expect("solver"),
         300.0 * vc,
     );
+    // source: as above (slope -1/2); band as above (common practice).
     assert!(
         (-0.56..-0.44).contains(&thick),
         "skin-regime log-slope {thick}"
@@ -158,8 +168,11 @@ fn runaway_is_reported() {
     let mut d = small_magnet_in(0.013, 0.0002);
     d.load.payload_mass_kg = 1000.0;
     let fc = force_curve(&d, &ForceCurveOptions::default(), &Limits::default()).expect("curve");
+    // source: common practice (a drive above the peak force has no balance point; Partovi &
+    // Morris, Can. J. Phys. 84, 253, 2006 for the peak itself).
     assert!(fc.terminal_speed_m_per_s.is_none());
     assert!(fc.cautions.iter().any(|c| c.message.contains("RUNAWAY")));
+    // The standing safety caution comes first (source: the project's contract, common practice).
     assert!(fc.cautions[0].message.contains("certification"));
 }
 
@@ -174,8 +187,11 @@ fn terminal_speed_balances_the_weight() {
     let s = SteadySolver::new(&d, None).expect("solver");
     // Weight m g with standard gravity (source: CGPM 1901, g_n = 9.80665 m/s^2).
     let weight = d.moving_mass_kg() * 9.80665;
+    // The root solve is converged to rounding (common practice).
     assert!((s.force_n(vt) / weight - 1.0).abs() < 1e-9);
+    // 40 points by default (source: the API contract, common practice).
     assert_eq!(fc.points.len(), 40);
+    // source: common practice (the 1 % accuracy the force curve claims).
     assert!(fc.model.error_estimate_relative.expect("estimated") < 0.01);
 }
 
@@ -191,21 +207,25 @@ fn stack_design(count: u32, polarity: Polarity) -> Design {
 
 #[test]
 fn alternating_stacks_brake_harder_than_aligned() {
-    // Like poles facing create more pole regions (source: Levin, da Silveira & Rizzato,
-    // Am. J. Phys. 74, 815, 2006; Donoso, Ladera & Martin, Am. J. Phys. 79, 193, 2011).
+    // Like poles facing create more pole regions, so alternating stacks brake harder (source:
+    // common practice; from memory, the comparison is reported by Donoso, Ladera & Martin,
+    // Am. J. Phys. 79, 193, 2011). Qualitative here for 2-4 magnets; the size of the effect
+    // (a damping ratio of 2.99 for three magnets) is held to the exact tube integral at 0.5 %
+    // in tests/highspeed.rs.
     for count in 2..=4 {
         let aligned =
             SteadySolver::new(&stack_design(count, Polarity::Aligned), None).expect("solver");
         let alt =
             SteadySolver::new(&stack_design(count, Polarity::Alternating), None).expect("solver");
-        assert!(alt.damping_n_s_per_m() > 1.5 * aligned.damping_n_s_per_m());
+        assert!(alt.damping_n_s_per_m() > aligned.damping_n_s_per_m());
     }
 }
 
 #[test]
 fn long_aligned_magnets_saturate() {
-    // Only the pole regions brake: doubling a long aligned magnet adds little
-    // (source: PHYSICS sec. 6, damping saturates beyond a few radii; common practice).
+    // Only the pole regions brake: doubling a long aligned magnet adds little (source: common
+    // practice - dPhi/dz of a long magnet is two pole lobes a few radii wide, so damping tends
+    // to twice one pole's once the length exceeds a few radii; 5 %: common practice).
     let mut short = stack_design(1, Polarity::Aligned);
     short.magnets.magnet_length_m = 0.05;
     let mut long = short.clone();
@@ -238,6 +258,8 @@ proptest! {
         flipped.magnets.remanence_t = -d.magnets.remanence_t;
         let f = SteadySolver::new(&d, None).expect("solver").force_n(speed);
         let g = SteadySolver::new(&flipped, None).expect("solver").force_n(speed);
+        // Force is quadratic in the magnetisation (source: the field is linear in it; common
+        // practice; 1e-12 rounding), and always brakes (source: dissipation, common practice).
         prop_assert!((f - g).abs() <= 1e-12 * f.abs());
         prop_assert!(f > 0.0);
     }
@@ -250,6 +272,8 @@ proptest! {
         let v = 0.01;
         let f = SteadySolver::new(&d, None).expect("solver").force_n(v);
         let g = SteadySolver::new(&better, None).expect("solver").force_n(v);
+        // source: F ~ sigma at low speed (Levin, da Silveira & Rizzato, Am. J. Phys. 74, 815,
+        // 2006).
         prop_assert!(g > f);
     }
 }

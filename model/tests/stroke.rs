@@ -111,9 +111,12 @@ fn steady_ring_circuit_tends_to_the_quasi_static_sum_and_the_auto_threshold_hold
 }
 
 #[test]
-fn energy_ledger_closes() {
+fn energy_ledger_closes_to_the_time_step_error() {
     // Work of the drive = kinetic energy change + heat + stored magnetic energy + friction work
     // (source: common practice - Poynting's theorem for the rings, Newton for the stack).
+    // This measures the time integration only: in the quasi-static pass heat is summed as
+    // c v^2 and braking is c v, so a scale error in c cancels. Scale-sensitive checks of heat
+    // and braking against outside references are in tests/highspeed.rs.
     // A heavy cart on a 30 degree incline with friction, launched at 3 m/s into the tube
     // (Rm ~ 0.3: the ring inductance matters).
     let d = copper(
@@ -444,21 +447,42 @@ fn results_carry_contract_fields() {
         .summary
         .tube_temperature_rise_k
         .expect("copper has a heat capacity");
-    assert!(rise > 0.0 && rise < 0.01);
+    // The field sweeps the whole 0.3 m tube, so the mean adiabatic rise is Q / (rho c_p A L)
+    // with copper's 8940 kg/m^3 and 385 J/(kg K) (source: Copper Development Association
+    // data for C12200) and A = pi (8^2 - 6.5^2) mm^2: about 6e-4 K here. 1e-9: arithmetic.
+    let capacity_j_per_k =
+        8940.0 * 385.0 * std::f64::consts::PI * (0.008_f64.powi(2) - 0.0065_f64.powi(2)) * 0.3;
+    assert!(
+        rel(rise, s.summary.heat_j / capacity_j_per_k) < 1e-9,
+        "rise {rise} K"
+    );
     let e = s.model.error_estimate_relative.expect("estimated");
+    // source: common practice (the 1 % accuracy the stroke reports claim).
     assert!(e > 0.0 && e < 0.01, "{e}");
-    // Heat: at terminal speed the heat per metre equals the weight (source: common practice -
-    // energy balance at constant speed); the stroke starts above the entry, so
-    // heat is a little above m g L but well below m g (L + 3 cm + exit fall).
-    let w = d.moving_mass_kg() * 9.80665;
-    assert!(s.summary.heat_j > 0.9 * w * 0.3 && s.summary.heat_j < w * 0.35);
+    // Heat equals the drop in potential and kinetic energy, m g (x_end - x_start) - m v_end^2 / 2
+    // (source: energy conservation, common practice). A time-step check only: in the
+    // quasi-static pass this balances whatever c is (heat against outside references:
+    // tests/highspeed.rs). 0.5 %: the ledger tolerance above.
+    let m = d.moving_mass_kg();
+    let lost = m * 9.80665 * (s.summary.end_position_m + 0.03)
+        - 0.5 * m * s.summary.end_speed_m_per_s.powi(2);
+    assert!(
+        rel(s.summary.heat_j, lost) < 0.005,
+        "heat {} vs {lost}",
+        s.summary.heat_j
+    );
 }
 
 #[test]
 fn a_hot_tube_brakes_less() {
-    // rho(T) = rho20 (1 + alpha (T - 20)) (source: IEC 60028 form of the resistivity law): a
-    // 60 K warmer tube conducts less, the stack exits sooner.
-    let d = copper(0.3, "{}");
+    // rho(T) = rho20 (1 + alpha (T - 20)) with alpha = 0.00393 /K for annealed copper
+    // (source: IEC 60028, International standard of resistance for copper): a 60 K warmer
+    // C11000 tube conducts 1 + 0.00393 x 60 = 1.2358 times less, the stack exits sooner.
+    let d = design(
+        r#"{"magnets":{"grade":"N42","outer_diameter_m":0.012,"length_m":0.02},
+            "tube":{"material":"copper-c11000","inner_diameter_m":0.013,"wall_thickness_m":0.0015,
+                    "length_m":0.3}}"#,
+    );
     let hot = d.at_temperatures(80.0, 20.0);
     let tc = run(&d, -0.03, 0.0, Fidelity::QuasiStatic)
         .summary
@@ -468,11 +492,14 @@ fn a_hot_tube_brakes_less() {
         .summary
         .exit_time_s
         .expect("exit");
+    // source: as above.
     assert!(th < tc);
-    // In the linear regime the time in the tube scales with the conductivity (source: common
-    // practice - terminal speed ~ 1/sigma): the ratio follows sigma within 2 %.
-    let ratio = d.tube.conductivity_s_per_m / hot.tube.conductivity_s_per_m;
-    assert!(rel(tc / th, ratio) < 0.02, "{} vs {ratio}", tc / th);
+    // In the linear regime the time spent at terminal speed scales with the conductivity
+    // (source: terminal speed ~ 1/sigma, Levin, da Silveira & Rizzato, Am. J. Phys. 74, 815,
+    // 2006); the free-fall start and the tube ends make the exit-time ratio a little smaller
+    // (measured 0.07 %). 0.5 %: a coefficient off by 0.0001 /K fails.
+    let ratio = 1.0 + 0.00393 * 60.0;
+    assert!(rel(tc / th, ratio) < 0.005, "{} vs {ratio}", tc / th);
 }
 
 #[test]

@@ -253,7 +253,8 @@ fn tolerance_bands_bracket_the_nominal_and_scale_as_expected() {
         .expect("solver")
         .damping_n_s_per_m();
     let band = b.bands["damping_n_s_per_m"];
-    // Quasi-static damping is proportional to sigma Br^2 (source: PHYSICS sec. 6, F ~ sigma Br^2):
+    // Quasi-static damping is proportional to sigma Br^2 (source: the low-speed law
+    // F ~ sigma m^2 v with m ~ Br, Levin, da Silveira & Rizzato, Am. J. Phys. 74, 815, 2006):
     // the band ends are c0 (1 -+ 0.05)(1 -+ 0.02)^2.
     assert!((band.min.expect("min") / (c0 * 0.95 * 0.98 * 0.98) - 1.0).abs() < 1e-9);
     assert!((band.max.expect("max") / (c0 * 1.05 * 1.02 * 1.02) - 1.0).abs() < 1e-9);

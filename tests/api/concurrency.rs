@@ -57,6 +57,13 @@ async fn liveness_answers_while_every_slot_computes() {
         Logs::Quiet,
     )
     .await;
+    // Calibration: one heavy job alone, timed on this machine now (a distinct speed, so the
+    // cache does not answer the jobs below).
+    let mut alone = heavy_force_curve(2000);
+    alone["speeds_m_per_s"][0] = json!(0.000123);
+    let started = Instant::now();
+    app.post_ok("/v1/force-curve", &alone).await;
+    let one_job = started.elapsed();
     let body = heavy_force_curve(2000);
     let mut tasks = Vec::new();
     for _ in 0..6 {
@@ -85,12 +92,14 @@ async fn liveness_answers_while_every_slot_computes() {
         max_in_flight = max_in_flight.max(in_flight(&metrics));
         tokio::time::sleep(Duration::from_millis(50)).await;
     }
-    // One computation at a time (the configured bound), and liveness in well under the
-    // 250 ms that one heavy job takes (common practice for probe latency on an idle runtime).
-    assert!(max_in_flight <= 1.0, "in flight {max_in_flight}");
+    // The slot was seen busy, and never more than the configured one.
+    assert_eq!(max_in_flight, 1.0, "in flight {max_in_flight}");
+    // Liveness does not wait for a job: the slowest probe took well under the time of one
+    // heavy job measured above on this machine (common practice: a probe answers inside its
+    // timeout whatever the load).
     assert!(
-        slowest < Duration::from_millis(200),
-        "healthz took {slowest:?}"
+        slowest < one_job / 2,
+        "healthz took {slowest:?}; one job alone {one_job:?}"
     );
     for t in tasks {
         assert_eq!(t.await.expect("task"), 200);
@@ -145,7 +154,8 @@ async fn overload_is_shed_with_503_and_retry_after() {
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn a_job_past_the_request_timeout_is_503() {
     // A larger speed cap (and body limit) makes one force curve take several seconds: 300,000
-    // speeds took about 4 s here, well past the 1 s timeout.
+    // speeds took about 4 s here, past the 1 s timeout. The checks are on order and outcome:
+    // the 503 comes while the job still holds its slot (it keeps it until it really ends).
     let app = spawn_app_with(
         &[
             "--request-timeout-s",
@@ -159,17 +169,17 @@ async fn a_job_past_the_request_timeout_is_503() {
         Logs::Quiet,
     )
     .await;
-    let started = Instant::now();
     let response = app
         .post_json("/v1/force-curve", &heavy_force_curve(300_000))
         .await;
-    let elapsed = started.elapsed();
+    let metrics = app.get("/metrics").await.text().await.expect("metrics");
     assert!(response.headers().get("retry-after").is_some());
     let problem = expect_problem(response, 503).await;
     assert_eq!(problem["type"], "urn:ringdrag:problem:timeout");
-    assert!(
-        elapsed < Duration::from_secs(3),
-        "answered after {elapsed:?}"
+    assert_eq!(
+        in_flight(&metrics),
+        1.0,
+        "the answer waited for the job to end"
     );
     app.assert_healthy().await;
 }

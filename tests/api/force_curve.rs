@@ -42,13 +42,16 @@ async fn damping_of_a_small_magnet_follows_the_thin_wall_dipole_law() {
         .await;
     let m = small_magnet_moment();
     // F / v = 45 mu0^2 m^2 sigma w / (1024 a^4)
-    // source: Levin, da Silveira & Rizzato, "Magnetic braking of a falling magnet in a thin
-    // conducting tube", Am. J. Phys. 74, 815, 2006. Thin-wall law: w/a = 0.005 here, so the law
-    // itself is about 2 w/a = 1 % high; allowed 3 %.
-    let expected = 45.0 * MU0 * MU0 * m * m * sigma * w / (1024.0 * a.powi(4));
+    // source: Levin, da Silveira & Rizzato, "Electromagnetic braking: A simple quantitative
+    // model", Am. J. Phys. 74, 815, 2006. The thin-wall law reads high by 2 w/a = 1 % at
+    // w/a = 0.005 (its first-order wall correction, from the thick-wall form of the same law);
+    // with that factor the remainder is (10/3)(w/a)^2 ~ 1e-4, plus ~(R/a)^2 ~ 6e-4 for the
+    // finite magnet: 0.5 %.
+    let expected =
+        45.0 * MU0 * MU0 * m * m * sigma * w / (1024.0 * a.powi(4)) * (1.0 - 2.0 * w / a);
     let damping = body["damping_n_s_per_m"].as_f64().expect("damping");
     assert!(
-        rel(damping, expected) < 0.03,
+        rel(damping, expected) < 0.005,
         "damping {damping} vs thin-wall dipole law {expected}"
     );
     // At low speed the curve is the damping line F = c v.
@@ -241,4 +244,76 @@ pub(crate) fn assert_standing_caution_first(body: &Value) {
     for (c, d) in cautions.iter().zip(details) {
         assert_eq!(c, &d["message"]);
     }
+}
+
+#[tokio::test]
+async fn high_speed_curve_matches_the_exact_tube_integral() {
+    // The exact steady force in a continuous thick-walled tube (source: Partovi & Morris,
+    // Can. J. Phys. 84, 253, 2006; Knyazev et al., Phys. Usp. 49, 937, 2006), evaluated by
+    // the committed scipy script model/tests/fixtures/make_tube_force.py. 16 radial layers:
+    // the default resolution is within 1 %, not 0.5 %, of it (model/tests/highspeed.rs).
+    let fixture: Value =
+        serde_json::from_str(include_str!("../../model/tests/fixtures/tube_force.json"))
+            .expect("fixture");
+    let case = fixture["cases"]
+        .as_array()
+        .and_then(|c| {
+            c.iter()
+                .find(|c| c["name"] == "cylinder_in_copper_4mm_wall")
+        })
+        .expect("case");
+    let num = |k: &str| case[k].as_f64().expect("number");
+    let (a, b) = (num("inner_radius_m"), num("outer_radius_m"));
+    let design = json!({
+        "magnets": {
+            "remanence_t": num("remanence_t"),
+            "outer_diameter_m": 2.0 * num("magnet_radius_m"),
+            "length_m": num("magnet_length_m")
+        },
+        "tube": {
+            "conductivity_s_per_m": num("conductivity_s_per_m"),
+            "inner_diameter_m": 2.0 * a,
+            "wall_thickness_m": b - a,
+            "length_m": 2.0
+        }
+    });
+    let points = case["points"].as_array().expect("points");
+    let speeds: Vec<f64> = points
+        .iter()
+        .map(|p| p["speed_m_per_s"].as_f64().expect("speed"))
+        .collect();
+    let body = app_post_curve(&design, &speeds).await;
+    for (got, want) in body["points"]
+        .as_array()
+        .expect("points")
+        .iter()
+        .zip(points)
+    {
+        let (f, exact) = (
+            got["force_n"].as_f64().expect("force"),
+            want["force_n"].as_f64().expect("force"),
+        );
+        // source: the fixture as above; 0.5 %: the accuracy asked of the solver (common
+        // practice), far above the fixture's 1e-11 quadrature tolerance.
+        assert!(
+            rel(f, exact) < 0.005,
+            "{} m/s: {f} vs exact {exact}",
+            got["speed_m_per_s"]
+        );
+    }
+    for key in ["peak_force_n", "critical_speed_m_per_s"] {
+        let got = body[key].as_f64().expect(key);
+        // source: the fixture as above (0.5 %).
+        assert!(rel(got, num(key)) < 0.005, "{key}: {got} vs {}", num(key));
+    }
+}
+
+async fn app_post_curve(design: &Value, speeds: &[f64]) -> Value {
+    spawn_app()
+        .await
+        .post_ok(
+            "/v1/force-curve",
+            &json!({ "design": design, "speeds_m_per_s": speeds, "resolution": {"radial_layers": 16} }),
+        )
+        .await
 }

@@ -4,6 +4,7 @@
 //! Run with `cargo test --release -p ringdrag-service --test api`.
 
 mod access;
+mod bounded;
 mod concurrency;
 mod csv_answers;
 mod error_texts;

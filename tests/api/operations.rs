@@ -193,7 +193,10 @@ async fn sigterm_finishes_in_flight_requests_then_exits() {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn readiness_turns_off_before_the_listener_closes() {
-    let mut app = spawn_app_with(&["--shutdown-delay-s", "2"], &[], Logs::Quiet).await;
+    // Order, not wall time: readiness turns off first; then, still inside the delay, the
+    // service is alive and computes; then it exits. The delay (4 s) is long against the
+    // polling and one small force curve so that the order holds on a loaded machine.
+    let mut app = spawn_app_with(&["--shutdown-delay-s", "4"], &[], Logs::Quiet).await;
     assert_eq!(app.get("/readyz").await.status().as_u16(), 200);
     app.terminate();
     // Within the delay: not ready (a problem with Retry-After), but alive and still computing.

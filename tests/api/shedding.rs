@@ -29,6 +29,11 @@ async fn a_saturated_service_sheds_load_and_stays_live() {
         Logs::Quiet,
     )
     .await;
+    // Calibration: one heavy job alone, timed on this machine now.
+    let started = Instant::now();
+    app.post_ok("/v1/force-curve", &heavy_force_curve(2000))
+        .await;
+    let one_job = started.elapsed();
     let running = Arc::new(AtomicBool::new(true));
     let mut clients = Vec::new();
     for c in 0..CLIENTS {
@@ -90,11 +95,11 @@ async fn a_saturated_service_sheds_load_and_stays_live() {
     }
     assert!(saw_busy, "the slot was never seen busy");
     assert!(ok >= 1 && shed >= 1, "ok {ok}, shed {shed}");
-    // One heavy job takes about 250 ms; a probe on an idle async runtime takes about a
-    // millisecond (common practice: a liveness probe must answer well inside its timeout).
+    // Probes do not wait for jobs: the slowest took well under one heavy job measured above
+    // on this machine (common practice: a liveness probe must answer well inside its timeout).
     assert!(
-        slowest < Duration::from_millis(200),
-        "healthz took {slowest:?} over {probes} probes"
+        slowest < one_job / 2,
+        "healthz took {slowest:?} over {probes} probes; one job alone {one_job:?}"
     );
     app.assert_healthy().await;
 }

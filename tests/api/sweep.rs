@@ -288,11 +288,11 @@ async fn the_first_point_arrives_while_a_large_sweep_still_computes() {
     assert_eq!(points, 800);
     assert_eq!(end["complete"], true, "{end}");
     // The stream is not buffered until the end: when the first point arrives the sweep still
-    // holds its job slot, and the first point comes long before the last line (common
-    // practice for streaming: progress is visible while the job runs).
-    assert_eq!(in_flight_at_first_point, Some(1.0));
-    assert!(
-        first.as_secs_f64() < 0.25 * total.as_secs_f64(),
+    // holds its job slot (order, not wall time; common practice for streaming: progress is
+    // visible while the job runs).
+    assert_eq!(
+        in_flight_at_first_point,
+        Some(1.0),
         "first point after {first:?} of {total:?}"
     );
     app.assert_healthy().await;

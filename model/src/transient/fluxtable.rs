@@ -11,9 +11,15 @@
 //! the magnet surface to the layer (at least half a layer, about dz/2): with K = 16 the cubic
 //! interpolation error is far below the discretisation error of the rings themselves.
 
+use crate::cancel::CancelToken;
 use crate::design::MagnetStack;
+use crate::error::{ModelError, show};
 use crate::inductance::mutual_filaments_h;
+use crate::limits::Limits;
 use crate::transient::grid::RingGrid;
+
+/// Kernel evaluations (about 0.1 us each) between two cancellation checks of a tabulation.
+const CANCEL_CHECK_POINTS: usize = 4096;
 
 /// Stacks with at most this many current-sheet ends are tabulated by direct evaluation.
 pub const DIRECT_ENDS: usize = 8;
@@ -72,7 +78,107 @@ pub struct RingAlignment {
     pub weights: [f64; 4],
 }
 
+/// Memory and work of one tabulation, estimated from the stack and the grid before anything
+/// is allocated (f64 arithmetic, so absurd designs cannot overflow the estimate).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TableCost {
+    /// f64 entries held at once (the table, plus the kernel table of long stacks).
+    pub entries: f64,
+    /// Kernel (loop-mutual) evaluations, interpolation terms counted as 1/16 of one.
+    pub evaluations: f64,
+}
+
+impl TableCost {
+    /// The cost of tabulating `stack` on `grid` over |zeta| <= `reach_m`, as [`FluxTable::new`]
+    /// would do it.
+    pub fn of(stack: &MagnetStack, grid: &RingGrid, reach_m: f64) -> Self {
+        let h = grid.ring_width_m / POINTS_PER_RING as f64;
+        let len = 2.0 * ((reach_m / h).ceil() + 3.0) + 1.0;
+        let layers = grid.layers as f64;
+        let ends = sheet_ends(stack);
+        let sheets = if stack.inner_radius_m > 0.0 { 2.0 } else { 1.0 };
+        let n_ends = ends.len() as f64;
+        if ends.len() <= DIRECT_ENDS {
+            Self {
+                entries: layers * len,
+                evaluations: layers * len * n_ends * sheets,
+            }
+        } else {
+            let span = ends.iter().fold(0.0_f64, |m, (e, _)| m.max(e.abs()));
+            let kernel = 2.0 * (((reach_m + span) / (0.25 * h)).ceil() + 4.0) + 1.0;
+            Self {
+                entries: layers * len + kernel,
+                evaluations: layers * sheets * (kernel + n_ends * len / 16.0),
+            }
+        }
+    }
+
+    /// Refuses a tabulation above `limits`, naming the design field that drives its size.
+    pub fn check(
+        &self,
+        stack: &MagnetStack,
+        grid: &RingGrid,
+        limits: &Limits,
+    ) -> Result<(), ModelError> {
+        let entries_over = !(self.entries <= limits.max_table_entries as f64);
+        let work_over = !(self.evaluations <= limits.max_kernel_evaluations as f64);
+        if !(entries_over || work_over) {
+            return Ok(());
+        }
+        let stack_length = stack.total_length_m();
+        // The table spans half the stack plus a margin of outer radii, on a spacing set by
+        // min(bore radius, magnet length): name what dominates.
+        let a = grid.layer_inner_m.first().copied().unwrap_or(0.0);
+        let b = grid.layer_outer_m.last().copied().unwrap_or(0.0);
+        let path = if stack.count > 1 && stack_length > 4.0 * stack.magnet_length_m {
+            "design.magnets.count"
+        } else if 0.5 * stack_length >= 5.0 * b || stack.magnet_length_m < a {
+            "design.magnets.length_m"
+        } else {
+            "design.tube.wall_thickness_m"
+        };
+        let what = if entries_over {
+            format!(
+                "the flux table would hold {} entries, above the service limit of {}",
+                show(self.entries),
+                limits.max_table_entries
+            )
+        } else {
+            format!(
+                "the flux table would need {} kernel evaluations, above the service limit of {}",
+                show(self.evaluations),
+                limits.max_kernel_evaluations
+            )
+        };
+        Err(ModelError::TooLarge {
+            path: path.into(),
+            message: format!(
+                "{what}: a stack {} m long (magnets {} m long, {} m across) is resolved on rings \
+                 {} m wide with {} radial layers; shorten the stack, use fewer or longer magnets, \
+                 or set a coarser options.ring_width_m",
+                show(stack_length),
+                show(stack.magnet_length_m),
+                show(2.0 * stack.outer_radius_m),
+                show(grid.ring_width_m),
+                grid.layers
+            ),
+        })
+    }
+}
+
 impl FluxTable {
+    /// Like [`FluxTable::new`], after checking its [`TableCost`] against `limits` (every
+    /// request-driven tabulation goes through here).
+    pub fn checked(
+        stack: &MagnetStack,
+        grid: &RingGrid,
+        reach_m: f64,
+        limits: &Limits,
+    ) -> Result<Self, ModelError> {
+        TableCost::of(stack, grid, reach_m).check(stack, grid, limits)?;
+        Self::tabulate(stack, grid, reach_m, &limits.cancel)
+    }
+
     /// Tabulates the stack's dPhi/dzeta for the layers of `grid` over |zeta| <= `reach_m`
     /// (plus a few points for interpolation).
     ///
@@ -84,6 +190,25 @@ impl FluxTable {
     /// point is evaluated directly; beyond, M is first tabulated at a quarter of the spacing and
     /// each end's term is interpolated from it (cubic), which keeps long stacks linear in cost.
     pub fn new(stack: &MagnetStack, grid: &RingGrid, reach_m: f64) -> Self {
+        match Self::tabulate(stack, grid, reach_m, &CancelToken::never()) {
+            Ok(table) => table,
+            // A token that never fires never stops the tabulation.
+            Err(_) => Self {
+                spacing_m: grid.ring_width_m / POINTS_PER_RING as f64,
+                half_points: 0,
+                layers: grid.layers,
+                values: vec![0.0; grid.layers],
+            },
+        }
+    }
+
+    /// [`FluxTable::new`], checking `cancel` every [`CANCEL_CHECK_POINTS`] table points.
+    fn tabulate(
+        stack: &MagnetStack,
+        grid: &RingGrid,
+        reach_m: f64,
+        cancel: &CancelToken,
+    ) -> Result<Self, ModelError> {
         let h = grid.ring_width_m / POINTS_PER_RING as f64;
         let half_points = (reach_m / h).ceil() as i64 + 3;
         let len = (2 * half_points + 1) as usize;
@@ -99,6 +224,9 @@ impl FluxTable {
             let row = &mut values[l * len..(l + 1) * len];
             if ends.len() <= DIRECT_ENDS {
                 for (k, slot) in row.iter_mut().enumerate() {
+                    if k % CANCEL_CHECK_POINTS == 0 {
+                        cancel.check()?;
+                    }
                     let zeta = (k as i64 - half_points) as f64 * h;
                     let mut sum = 0.0;
                     for &(e, c) in &ends {
@@ -114,10 +242,16 @@ impl FluxTable {
                 let span = ends.iter().fold(0.0_f64, |m, (e, _)| m.max(e.abs()));
                 let half_m = ((reach_m + span) / hm).ceil() as i64 + 4;
                 for &(radius, sign) in &sheets {
-                    let kernel: Vec<f64> = (-half_m..=half_m)
-                        .map(|n| mutual_filaments_h(radius, r, n as f64 * hm))
-                        .collect();
+                    cancel.check()?;
+                    let mut kernel = Vec::with_capacity((2 * half_m + 1).max(0) as usize);
+                    for n in -half_m..=half_m {
+                        if n % CANCEL_CHECK_POINTS as i64 == 0 {
+                            cancel.check()?;
+                        }
+                        kernel.push(mutual_filaments_h(radius, r, n as f64 * hm));
+                    }
                     for &(e, c) in &ends {
+                        cancel.check()?;
                         // zeta_k - e = (4 (k - half_points) - e / hm) hm: one fraction per end.
                         let s0 = -e / hm;
                         let base = s0.floor();
@@ -140,12 +274,12 @@ impl FluxTable {
                 }
             }
         }
-        Self {
+        Ok(Self {
             spacing_m: h,
             half_points,
             layers: grid.layers,
             values,
-        }
+        })
     }
 
     /// Table spacing h, m.

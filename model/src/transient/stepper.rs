@@ -161,12 +161,14 @@ impl<'a> Stepper<'a> {
                 let s = x_m / dz - 0.5;
                 let mut lo = (s - half_length_m / dz).ceil() as i64;
                 let mut hi = (s + half_length_m / dz).floor() as i64;
-                if hi - lo + 1 > self.max_rings as i64 {
-                    hi = lo + self.max_rings as i64 - 1;
-                }
+                // Clip to the tube first, then to the capacity: capping first could leave a
+                // window wider than the tube entirely outside it (no current at all).
                 if finite {
                     lo = lo.max(0);
                     hi = hi.min(self.grid.rings as i64 - 1);
+                }
+                if hi - lo + 1 > self.max_rings as i64 {
+                    hi = lo + self.max_rings as i64 - 1;
                 }
                 if hi < lo {
                     (lo, 0)

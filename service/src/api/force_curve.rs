@@ -347,7 +347,8 @@ pub async fn compute_force_curve(
     // workers and within the job's slot and deadline.
     state
         .jobs
-        .run("force_curve", move || {
+        .run("force_curve", move |cancel| {
+            let limits = limits.with_cancel(cancel);
             let curve = ringdrag_model::force_curve(&design, &options, &limits)?;
             let mut response = ForceCurveResponse::from_model(curve)?;
             if let Some(t) = &tolerances {

@@ -25,7 +25,8 @@ use utoipa_axum::routes;
         description = "Eddy-current braking of permanent-magnet stacks moving through non-ferrous \
             conducting tubes: steady force-speed curves, stroke simulations, sweeps over design \
             fields and inverse sizing with a safety factor. JSON in and out (force curves, \
-            strokes and sweeps also as SVG plots, sweeps also as a stream of JSON lines), \
+            strokes and sweeps also as SVG plots and CSV tables, sweeps also as a stream of \
+            JSON lines), \
             SI units, every dimensional field carries its unit in its name. Errors are RFC 9457 \
             problem documents (application/problem+json); validation errors name each field by \
             its dotted path in the request body. Results are engineering estimates from an \

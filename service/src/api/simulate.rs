@@ -397,7 +397,8 @@ pub async fn simulate_stroke(
     // workers and within the job's slot and deadline.
     state
         .jobs
-        .run("simulate", move || {
+        .run("simulate", move |cancel| {
+            let limits = limits.with_cancel(cancel);
             let stroke = ringdrag_model::simulate_stroke(&design, &options, &limits)?;
             let response = SimulateResponse::from_model(stroke)?;
             match media {

@@ -347,14 +347,14 @@ pub async fn size_design(
     negotiate::choose(&headers, &[Media::Json])?;
     let valid = request.validate(&state.limits)?;
     let limits = Arc::clone(&state.limits);
-    // The runner answers 503 once the request deadline passes; the search then stops before
-    // its next design evaluation instead of holding the slot to the end.
-    let deadline = std::time::Instant::now() + state.jobs.timeout();
+    // The runner answers 503 once the request deadline passes and raises the job's token; the
+    // search, and the stroke or solver inside it, then stop at their next check instead of
+    // holding the slot to the end.
     let (result, bands) = state
         .jobs
-        .run("size", move || {
-            let keep_going = move || std::time::Instant::now() < deadline;
-            let result = sizing::size_while(&valid.job, &limits, &keep_going)?;
+        .run("size", move |cancel| {
+            let limits = limits.with_cancel(cancel);
+            let result = sizing::size(&valid.job, &limits)?;
             let bands = match &valid.tolerances {
                 Some(tolerances) => {
                     let mut hot = result.design.clone();

@@ -619,7 +619,18 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
     let plan = sweep.plan;
     state
         .jobs
-        .start("sweep", move || {
+        .start("sweep", move |cancel| {
+            let plan = plan.with_cancel(cancel.clone());
+            // A reader that goes away stops the points in flight too, not only those not yet
+            // started (the receiver is dropped with the response body).
+            {
+                let tx = tx.clone();
+                let cancel = cancel.clone();
+                runtime.spawn(async move {
+                    tx.closed().await;
+                    cancel.cancel();
+                });
+            }
             // Set once a line cannot be handed over (the reader is gone or the deadline
             // passed): points not yet started are skipped; those running finish unsent.
             let stopped = AtomicBool::new(false);
@@ -635,6 +646,7 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
                 let ok = matches!(sent, Ok(Ok(())));
                 if !ok {
                     stopped.store(true, Ordering::Relaxed);
+                    cancel.cancel();
                 }
                 ok
             };
@@ -742,8 +754,10 @@ pub async fn sweep_design(
     // workers and within the job's slot and deadline.
     state
         .jobs
-        .run("sweep", move || {
-            let points = sweep.plan.run_collect();
+        .run("sweep", move |cancel| {
+            let plan = sweep.plan.clone().with_cancel(cancel.clone());
+            let points = plan.run_collect();
+            cancel.check()?;
             let response = SweepResponse::new(&sweep, points)?;
             match media {
                 Media::Svg => {
