@@ -2,7 +2,7 @@
 
 Usage: python .ci/check_examples.py openapi/openapi.json
 Uses the `jsonschema` package (JSON Schema 2020-12, the dialect of OpenAPI 3.1), which
-schemathesis installs into the fuzz virtualenv. The examples are also posted to the running
+.ci/fuzz.sh installs into its virtualenv beside schemathesis. The examples are also posted to the running
 service by the end-to-end test `openapi::request_examples_answer_200`.
 """
 

@@ -288,7 +288,6 @@ impl ForceCurveResponse {
     path = "/v1/force-curve",
     tag = "jobs",
     operation_id = "compute_force_curve",
-    params(PlotOptions),
     request_body(
         content = ForceCurveRequest,
         content_type = "application/json",

@@ -347,7 +347,6 @@ impl SimulateResponse {
     path = "/v1/simulate",
     tag = "jobs",
     operation_id = "simulate_stroke",
-    params(PlotOptions),
     request_body(
         content = SimulateRequest,
         content_type = "application/json",

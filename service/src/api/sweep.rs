@@ -689,7 +689,6 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
     path = "/v1/sweep",
     tag = "jobs",
     operation_id = "sweep_design",
-    params(PlotOptions),
     request_body(
         content = SweepRequest,
         content_type = "application/json",
