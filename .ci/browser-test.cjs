@@ -24,7 +24,7 @@ const root = path.resolve(__dirname, "..");
 const binary = process.env.RINGDRAG_BIN || path.join(root, "target/release/ringdrag");
 const executablePath = process.env.CHROMIUM || "/usr/bin/chromium";
 const outDir = path.join(root, "target");
-const KEY = "workbench-test-key-0123456789abcdef";
+const KEY = "4b8e2f6a1c9d37e5f0a2b6c8d4e17f93";
 
 let passed = 0;
 let failed = 0;

@@ -22,6 +22,9 @@ pub struct Limits {
     pub max_radial_layers: usize,
     /// Most points in one sweep.
     pub max_sweep_points: usize,
+    /// Largest band storage of one factorised ring-circuit window matrix, entries (it also
+    /// bounds the work of one time step to about 4x this many multiply-adds).
+    pub max_band_entries: usize,
     /// Most entries (radial layers x axial points) in one tabulation of the stack's flux
     /// derivative, and in its drag profile; 8 bytes each.
     pub max_table_entries: usize,
@@ -46,6 +49,7 @@ impl Default for Limits {
             max_samples: 20_000,
             max_radial_layers: 32,
             max_sweep_points: 10_000,
+            max_band_entries: crate::transient::MAX_BAND_ENTRIES,
             max_table_entries: 1 << 22,
             max_kernel_evaluations: 20_000_000,
             max_quadrature_terms: 100_000_000,

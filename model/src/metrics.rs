@@ -118,20 +118,92 @@ pub fn evaluate(
     limits: &Limits,
     solver: Option<&SteadySolver>,
 ) -> Result<Vec<Option<f64>>, ModelError> {
+    Ok(evaluate_with(design, metrics, stroke, limits, solver, None)?.0)
+}
+
+/// A steady solver and its resolution companion ([`SteadySolver::companion`]), built once and
+/// shared by every design with the same magnets and tube.
+#[derive(Debug, Clone)]
+pub struct SteadyPair {
+    /// The solver at the default resolution.
+    pub solver: SteadySolver,
+    /// The coarser companion for the error estimate.
+    pub companion: SteadySolver,
+}
+
+impl SteadyPair {
+    /// Both solvers for `design` at the default resolution, within the work `limits`.
+    pub fn new(design: &Design, limits: &Limits) -> Result<Self, ModelError> {
+        Ok(Self {
+            solver: SteadySolver::new_within(design, None, limits)?,
+            companion: SteadySolver::companion(design, None, limits)?,
+        })
+    }
+}
+
+/// Like [`evaluate`], and the estimated relative numerical error of the values: the larger of
+/// the steady solver's ([`crate::spectral::metrics_change`]) and the stroke's
+/// (`error_estimate_relative` of the stroke), None when neither ran. A solver pair built for
+/// the same magnets and tube may be passed in to be reused.
+pub fn evaluate_estimated(
+    design: &Design,
+    metrics: &[Metric],
+    stroke: &StrokeOptions,
+    limits: &Limits,
+    solvers: Option<&SteadyPair>,
+) -> Result<(Vec<Option<f64>>, Option<f64>), ModelError> {
+    let needs_steady = metrics.iter().any(|m| m.needs_steady());
+    let own;
+    let pair = match solvers {
+        Some(p) => Some(p),
+        None if needs_steady => {
+            own = SteadyPair::new(design, limits)?;
+            Some(&own)
+        }
+        None => None,
+    };
+    evaluate_with(
+        design,
+        metrics,
+        stroke,
+        limits,
+        pair.map(|p| &p.solver),
+        pair.map(|p| &p.companion),
+    )
+}
+
+/// The values, with an estimate from the steady companion when one is given.
+fn evaluate_with(
+    design: &Design,
+    metrics: &[Metric],
+    stroke: &StrokeOptions,
+    limits: &Limits,
+    solver: Option<&SteadySolver>,
+    companion: Option<&SteadySolver>,
+) -> Result<(Vec<Option<f64>>, Option<f64>), ModelError> {
+    let mut estimate: Option<f64> = None;
     let steady: Option<SteadyMetrics> = if metrics.iter().any(|m| m.needs_steady()) {
-        Some(match solver {
+        let fine = match solver {
             Some(s) => s.metrics(design),
             None => SteadySolver::new_within(design, None, limits)?.metrics(design),
-        })
+        };
+        if let Some(c) = companion {
+            estimate = Some(crate::spectral::metrics_change(&fine, &c.metrics(design)));
+        }
+        Some(fine)
     } else {
         None
     };
     let summary: Option<StrokeSummary> = if metrics.iter().any(|m| m.needs_stroke()) {
-        Some(crate::transient::simulate_stroke(design, stroke, limits)?.summary)
+        let s = crate::transient::simulate_stroke(design, stroke, limits)?;
+        if let Some(e) = s.model.error_estimate_relative {
+            estimate = Some(estimate.map_or(e, |x| x.max(e)));
+        }
+        Some(s.summary)
     } else {
         None
     };
-    Ok(metrics
+    let values = metrics
         .iter()
         .map(|m| {
             let s = steady.as_ref();
@@ -155,5 +227,6 @@ pub fn evaluate(
             }
             .filter(|x| x.is_finite())
         })
-        .collect())
+        .collect();
+    Ok((values, estimate.filter(|e| e.is_finite())))
 }

@@ -19,7 +19,7 @@ use crate::design::Design;
 use crate::designpath;
 use crate::error::{ModelError, show};
 use crate::limits::Limits;
-use crate::metrics::{Metric, evaluate};
+use crate::metrics::{Metric, evaluate_estimated};
 use crate::report::{Discretisation, Fidelity, ModelInfo};
 use crate::spec::DesignSpec;
 use crate::stroke::StrokeOptions;
@@ -160,6 +160,8 @@ struct Evaluation {
     margins: BTreeMap<String, f64>,
     cold: Achieved,
     hot: Achieved,
+    /// Estimated relative numerical error of the metrics, cold and hot.
+    estimate: Option<f64>,
 }
 
 struct Search<'a> {
@@ -189,8 +191,14 @@ impl Search<'_> {
             Some(t) => cold.at_temperatures(t, t),
             None => cold.clone(),
         };
-        let vc = evaluate(&cold, &self.metrics, &self.req.stroke, self.limits, None)?;
-        let vh = evaluate(&hot, &self.metrics, &self.req.stroke, self.limits, None)?;
+        let (vc, ec) =
+            evaluate_estimated(&cold, &self.metrics, &self.req.stroke, self.limits, None)?;
+        let (vh, eh) =
+            evaluate_estimated(&hot, &self.metrics, &self.req.stroke, self.limits, None)?;
+        let estimate = match (ec, eh) {
+            (Some(a), Some(b)) => Some(a.max(b)),
+            (a, b) => a.or(b),
+        };
         let sf = self.req.safety_factor;
         let mut margins = BTreeMap::new();
         let mut margin = f64::INFINITY;
@@ -229,6 +237,7 @@ impl Search<'_> {
             margins,
             cold: named(vc),
             hot: named(vh),
+            estimate,
         })
     }
 }
@@ -442,7 +451,7 @@ pub fn size_while(
             }
         }
     }
-    let model = ModelInfo::new(
+    let mut model = ModelInfo::new(
         if search.metrics.iter().any(|m| m.needs_stroke()) {
             "spectral+ring_circuit"
         } else {
@@ -455,6 +464,21 @@ pub fn size_while(
         },
         Discretisation::default(),
     );
+    // The numbers reported are those of the final design: its estimate is theirs.
+    model.error_estimate_relative = eval_final.estimate;
+    if let Some(e) = eval_final.estimate
+        && e > crate::spectral::NUMERICAL_CAUTION_RELATIVE
+    {
+        cautions.push(Caution::new(
+            CautionKind::Numerical,
+            format!(
+                "Estimated numerical error of the sized design's metrics is {:.2} %, above {:.0} %; \
+                 check the design with a force curve or stroke at finer resolution.",
+                100.0 * e,
+                100.0 * crate::spectral::NUMERICAL_CAUTION_RELATIVE
+            ),
+        ));
+    }
     Ok(SizeResult {
         feasible,
         value: feasible.then_some(x_final),

@@ -12,9 +12,8 @@ use crate::design::Design;
 use crate::designpath;
 use crate::error::ModelError;
 use crate::limits::Limits;
-use crate::metrics::{Metric, evaluate};
+use crate::metrics::{Metric, SteadyPair, evaluate_estimated};
 use crate::spec::DesignSpec;
-use crate::spectral::SteadySolver;
 use crate::stroke::StrokeOptions;
 use rayon::prelude::*;
 use serde::Serialize;
@@ -64,6 +63,9 @@ pub struct SweepPoint {
     pub metrics: BTreeMap<String, Option<f64>>,
     /// Why the point failed, or null.
     pub error: Option<String>,
+    /// Estimated relative numerical error of the point's metrics (the change between two
+    /// resolutions of the steady solver, and the stroke's own estimate), or null.
+    pub error_estimate_relative: Option<f64>,
 }
 
 /// Fields that leave the steady solver unchanged: the load (it only sets the driving
@@ -234,14 +236,18 @@ impl SweepPlan {
         Design::from_spec(&spec)
     }
 
-    fn point(&self, index: usize, values: Result<Vec<Option<f64>>, ModelError>) -> SweepPoint {
+    fn point(
+        &self,
+        index: usize,
+        values: Result<(Vec<Option<f64>>, Option<f64>), ModelError>,
+    ) -> SweepPoint {
         let inputs = self
             .inputs(index)
             .into_iter()
             .map(|(p, v)| (p.to_string(), v))
             .collect();
         match values {
-            Ok(v) => SweepPoint {
+            Ok((v, estimate)) => SweepPoint {
                 index,
                 inputs,
                 metrics: self
@@ -251,6 +257,7 @@ impl SweepPlan {
                     .zip(v)
                     .collect(),
                 error: None,
+                error_estimate_relative: estimate,
             },
             Err(e) => SweepPoint {
                 index,
@@ -261,6 +268,7 @@ impl SweepPlan {
                     .map(|m| (m.name().to_string(), None))
                     .collect(),
                 error: Some(e.to_string()),
+                error_estimate_relative: None,
             },
         }
     }
@@ -288,7 +296,7 @@ impl SweepPlan {
     ) {
         let needs_steady = self.metrics.iter().any(|m| m.needs_steady());
         let groups = self.len() / self.group_size.max(1);
-        let slots: Vec<(Mutex<Option<Arc<SteadySolver>>>, AtomicUsize)> = (0..groups)
+        let slots: Vec<(Mutex<Option<Arc<SteadyPair>>>, AtomicUsize)> = (0..groups)
             .map(|_| (Mutex::new(None), AtomicUsize::new(self.group_size)))
             .collect();
         // A group's solver is dropped once its last point is done (or skipped).
@@ -312,8 +320,7 @@ impl SweepPlan {
                     let s = match guard.as_ref() {
                         Some(s) => Arc::clone(s),
                         None => {
-                            let s =
-                                Arc::new(SteadySolver::new_within(&design, None, &self.limits)?);
+                            let s = Arc::new(SteadyPair::new(&design, &self.limits)?);
                             *guard = Some(Arc::clone(&s));
                             s
                         }
@@ -322,7 +329,7 @@ impl SweepPlan {
                 } else {
                     None
                 };
-                evaluate(
+                evaluate_estimated(
                     &design,
                     &self.metrics,
                     &self.stroke,

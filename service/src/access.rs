@@ -13,7 +13,9 @@
 //! every path under `/v1/`; `/healthz`, `/readyz` and `/openapi.json` stay open (probes and
 //! tooling send no token), and `/metrics` stays open unless `--protect-metrics` is set. A
 //! missing or wrong key is answered 401 with a problem document and a `WWW-Authenticate:
-//! Bearer` challenge (RFC 6750, section 3).
+//! Bearer` challenge (RFC 6750, section 3). Wrong keys are throttled per client address
+//! (`--auth-failures-per-minute`, see [`require_key`]), and keys that are easy to guess are
+//! refused at start-up ([`weakness`]).
 //!
 //! **CORS.** With `RINGDRAG_CORS_ORIGINS` set, browsers on exactly those origins may call the
 //! service (preflight answered, `Authorization` and `Content-Type` allowed, `x-request-id` and
@@ -21,13 +23,14 @@
 //! the answer. No wildcard is accepted.
 
 use crate::problem::ApiError;
+use crate::ratelimit::{RateLimiter, client_address};
 use axum::extract::{Request, State};
 use axum::http::{HeaderName, HeaderValue, Method, header};
 use axum::middleware::Next;
 use axum::response::{IntoResponse, Response};
 use sha2::{Digest, Sha256};
 use std::sync::Arc;
-use std::time::Duration;
+use std::time::{Duration, Instant};
 use subtle::{ConditionallySelectable, ConstantTimeEq};
 use tower_http::cors::{AllowOrigin, CorsLayer};
 
@@ -84,7 +87,56 @@ fn check_key(key: &str) -> Result<(), String> {
                 .to_string(),
         );
     }
+    if let Some(why) = weakness(body.as_bytes()) {
+        return Err(format!(
+            "an API key is too easy to guess ({why}); make one with `openssl rand -hex 32`"
+        ));
+    }
     Ok(())
+}
+
+/// Least estimated entropy of an API key, bits: the key's length times the Shannon entropy
+/// of its own character frequencies (a rough upper estimate, common practice for spotting
+/// weak secrets). 16 random hexadecimal digits score about 50.
+pub const MIN_KEY_BITS: f64 = 40.0;
+
+/// Why `key` (ASCII) is easy to guess, or `None`: a short pattern repeated (`abcabcabc...`,
+/// `passwordpassword`), mostly runs of neighbouring or equal characters (`abcdefghijklmnop`,
+/// `1234567890123456`, `aaaaaaaaaaaaaaaa`), or under [`MIN_KEY_BITS`] of estimated entropy.
+pub fn weakness(key: &[u8]) -> Option<String> {
+    let n = key.len();
+    if n < 2 {
+        return Some("too short".to_string());
+    }
+    if let Some(period) = (1..=n / 2).find(|&p| key.iter().zip(&key[p..]).all(|(a, b)| a == b)) {
+        return Some(format!("a pattern of {period} characters repeated"));
+    }
+    let steps = key.windows(2).filter(|w| w[0].abs_diff(w[1]) <= 1).count();
+    if 2 * steps >= n - 1 {
+        return Some(format!(
+            "{steps} of its {} neighbouring pairs are equal or consecutive characters",
+            n - 1
+        ));
+    }
+    let mut counts = [0usize; 256];
+    for &b in key {
+        counts[usize::from(b)] += 1;
+    }
+    let bits_per_char: f64 = counts
+        .iter()
+        .filter(|&&c| c > 0)
+        .map(|&c| {
+            let p = c as f64 / n as f64;
+            -p * p.log2()
+        })
+        .sum();
+    let bits = bits_per_char * n as f64;
+    if bits < MIN_KEY_BITS {
+        return Some(format!(
+            "about {bits:.0} bits of estimated entropy; at least {MIN_KEY_BITS:.0} are required"
+        ));
+    }
+    None
 }
 
 impl ApiKeys {
@@ -180,9 +232,29 @@ pub struct AccessPolicy {
     pub keys: Arc<ApiKeys>,
     /// Whether `/metrics` needs a key too.
     pub protect_metrics: bool,
+    /// Wrong keys allowed per client address: a bucket per address, one token per wrong key.
+    pub failures: RateLimiter,
+    /// Header naming the client address behind a proxy (as for the rate limit).
+    pub client_ip_header: Option<HeaderName>,
 }
 
 impl AccessPolicy {
+    /// The policy for `keys`, allowing `failures_per_minute` wrong keys a minute (in bursts
+    /// of as many) per client address.
+    pub fn new(
+        keys: ApiKeys,
+        protect_metrics: bool,
+        failures_per_minute: u32,
+        client_ip_header: Option<HeaderName>,
+    ) -> Self {
+        Self {
+            keys: Arc::new(keys),
+            protect_metrics,
+            failures: RateLimiter::new(failures_per_minute, failures_per_minute, None),
+            client_ip_header,
+        }
+    }
+
     /// Whether `path` needs a key.
     pub fn guards(&self, path: &str) -> bool {
         path.starts_with(GUARDED_PREFIX) || (self.protect_metrics && path == "/metrics")
@@ -204,6 +276,11 @@ fn bearer_token(value: &HeaderValue) -> Option<&[u8]> {
 
 /// Middleware: refuses guarded requests without a valid key, and tags accepted ones with the
 /// key's index. Preflight requests never reach it (the CORS layer sits outside).
+///
+/// Wrong keys are throttled per client address: each one takes a token from the address's
+/// bucket (`--auth-failures-per-minute`), and while that bucket is empty every guarded
+/// request from the address is answered 429 with `Retry-After`, before its key is even
+/// looked at, so that guessing costs time whatever the guesses.
 pub async fn require_key(
     State(policy): State<AccessPolicy>,
     mut req: Request,
@@ -211,6 +288,12 @@ pub async fn require_key(
 ) -> Response {
     if !policy.guards(req.uri().path()) {
         return next.run(req).await;
+    }
+    let client = client_address(&req, policy.client_ip_header.as_ref());
+    let now = Instant::now();
+    if let Err(retry_after_s) = policy.failures.check(client, now) {
+        metrics::counter!("ringdrag_auth_throttled_total").increment(1);
+        return ApiError::RateLimited { retry_after_s }.into_response();
     }
     let token = req.headers().get(header::AUTHORIZATION).map(bearer_token);
     match token {
@@ -220,7 +303,10 @@ pub async fn require_key(
                 req.extensions_mut().insert(KeyIndex(index));
                 next.run(req).await
             }
-            None => ApiError::Unauthorized { wrong_key: true }.into_response(),
+            None => {
+                let _ = policy.failures.take(client, now);
+                ApiError::Unauthorized { wrong_key: true }.into_response()
+            }
         },
     }
 }
@@ -398,8 +484,9 @@ pub fn document(doc: &mut utoipa::openapi::OpenApi) {
 mod tests {
     use super::*;
 
-    const KEY_A: &str = "alpha-0123456789abcdef";
-    const KEY_B: &str = "bravo-0123456789abcdef";
+    // Invented keys (random hexadecimal digits with a readable prefix).
+    const KEY_A: &str = "alpha-5e2b9c07d4f1a836";
+    const KEY_B: &str = "bravo-c9407e1d3b6a2f85";
 
     #[test]
     fn keys_are_found_by_index_and_wrong_keys_are_not() {
@@ -407,9 +494,9 @@ mod tests {
         assert_eq!(keys.len(), 2, "duplicates and empty items are dropped");
         assert_eq!(keys.find(KEY_A.as_bytes()), Some(0));
         assert_eq!(keys.find(KEY_B.as_bytes()), Some(1));
-        assert_eq!(keys.find(b"alpha-0123456789abcdeX"), None);
+        assert_eq!(keys.find(b"alpha-5e2b9c07d4f1a83X"), None);
         assert_eq!(
-            keys.find(b"alpha-0123456789abcde"),
+            keys.find(b"alpha-5e2b9c07d4f1a83"),
             None,
             "a prefix is not a key"
         );
@@ -428,10 +515,35 @@ mod tests {
     #[test]
     fn weak_or_unsendable_keys_are_refused() {
         assert!(ApiKeys::from_list("test").is_err());
-        assert!(ApiKeys::from_list("0123456789abcdef with space").is_err());
-        assert!(ApiKeys::from_list("0123456789abcdef\u{e9}").is_err());
+        assert!(ApiKeys::from_list("5e2b9c07d4f1a836 with space").is_err());
+        assert!(ApiKeys::from_list("5e2b9c07d4f1a836\u{e9}").is_err());
         assert!(ApiKeys::from_list("================").is_err());
-        assert!(ApiKeys::from_list("0123456789abcdef0123+/==").is_ok());
+        assert!(ApiKeys::from_list("5e2b9c07d4f1a8360b3+/==").is_ok());
+        // Long enough but obvious: runs, repeats, few distinct characters.
+        for weak in [
+            "abcdefghijklmnop",
+            "0123456789abcdef",
+            "1234567890123456",
+            "aaaaaaaaaaaaaaaaaaaa",
+            "passwordpassword",
+            "abcabcabcabcabcabc",
+            "zyxwvutsrqponmlk",
+            "abababababababab0",
+            "a1a1a1a1a1a1a1a1b2",
+        ] {
+            let Err(why) = ApiKeys::from_list(weak) else {
+                panic!("{weak} accepted")
+            };
+            assert!(why.contains("too easy to guess"), "{weak}: {why}");
+        }
+        // What `openssl rand -hex 8/-hex 32/-base64 24` make passes.
+        for strong in [
+            "9f86d081884c7d65",
+            "5f0c1d9e8a7b6c5d4e3f2a1b0c9d8e7f6a5b4c3d2e1f0a9b8c7d6e5f4a3b2c1d",
+            "q8Vt2mK0zR4xN7bW1yL5cH3jP6sD9fGa",
+        ] {
+            assert!(ApiKeys::from_list(strong).is_ok(), "{strong}");
+        }
         assert!(ApiKeys::from_list("").is_ok_and(|k| k.is_empty()));
     }
 
@@ -455,10 +567,7 @@ mod tests {
 
     #[test]
     fn the_guard_covers_v1_and_optionally_metrics() {
-        let mut policy = AccessPolicy {
-            keys: Arc::new(ApiKeys::default()),
-            protect_metrics: false,
-        };
+        let mut policy = AccessPolicy::new(ApiKeys::default(), false, 10, None);
         assert!(policy.guards("/v1/force-curve"));
         assert!(policy.guards("/v1/no-such-route"));
         for open in ["/healthz", "/readyz", "/openapi.json", "/metrics", "/v1"] {

@@ -17,8 +17,10 @@
 //!   so neither bound can be exceeded. An answer larger than an eighth of the budget is not
 //!   stored. moka's TinyLFU policy picks what stays: entries asked for often outlive one-offs.
 //! - Requests without `Content-Length`, with a body not declared as JSON or above
-//!   `--max-body-bytes`, or whose body is not JSON, pass through untouched: the endpoint
-//!   answers them as always.
+//!   `--max-body-bytes`, whose body is not JSON, or that repeat a key within an object (which
+//!   the endpoints refuse, 422), pass through untouched: the endpoint answers them as always,
+//!   so a cached answer is never given to a body the endpoint would refuse.
+//! - The body is read inside the request timeout (the timeout layer sits outside the cache).
 //!
 //! Answers carry `x-cache: hit` or `x-cache: miss`; `ringdrag_cache_lookups_total{route,
 //! result}` counts them. The cache is shared by every client: an answer for a design some
@@ -124,10 +126,82 @@ fn canonical(value: Value) -> Value {
     }
 }
 
+/// A JSON value parsed strictly: an object with a repeated key is an error, as it is for the
+/// endpoints' typed parsers (serde's derived `Deserialize` refuses a duplicate field), whereas
+/// `serde_json::Value` would keep the last value silently. Without this, a body with a
+/// duplicate key (refused 422 on a cold cache) could share its key with the valid body that
+/// holds only the last value, and be answered 200 from a warm cache.
+struct StrictValue(Value);
+
+impl<'de> serde::Deserialize<'de> for StrictValue {
+    fn deserialize<D: serde::Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        deserializer.deserialize_any(StrictVisitor).map(StrictValue)
+    }
+}
+
+struct StrictVisitor;
+
+impl<'de> serde::de::Visitor<'de> for StrictVisitor {
+    type Value = Value;
+
+    fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str("any JSON value without duplicate object keys")
+    }
+
+    fn visit_bool<E>(self, v: bool) -> Result<Value, E> {
+        Ok(Value::Bool(v))
+    }
+
+    fn visit_i64<E>(self, v: i64) -> Result<Value, E> {
+        Ok(Value::from(v))
+    }
+
+    fn visit_u64<E>(self, v: u64) -> Result<Value, E> {
+        Ok(Value::from(v))
+    }
+
+    fn visit_f64<E>(self, v: f64) -> Result<Value, E> {
+        Ok(Value::from(v))
+    }
+
+    fn visit_str<E>(self, v: &str) -> Result<Value, E> {
+        Ok(Value::String(v.to_string()))
+    }
+
+    fn visit_string<E>(self, v: String) -> Result<Value, E> {
+        Ok(Value::String(v))
+    }
+
+    fn visit_unit<E>(self) -> Result<Value, E> {
+        Ok(Value::Null)
+    }
+
+    fn visit_seq<A: serde::de::SeqAccess<'de>>(self, mut seq: A) -> Result<Value, A::Error> {
+        let mut items = Vec::new();
+        while let Some(StrictValue(item)) = seq.next_element()? {
+            items.push(item);
+        }
+        Ok(Value::Array(items))
+    }
+
+    fn visit_map<A: serde::de::MapAccess<'de>>(self, mut map: A) -> Result<Value, A::Error> {
+        let mut object = serde_json::Map::new();
+        while let Some(key) = map.next_key::<String>()? {
+            if object.contains_key(&key) {
+                return Err(serde::de::Error::custom(format!("duplicate key `{key}`")));
+            }
+            let StrictValue(value) = map.next_value()?;
+            object.insert(key, value);
+        }
+        Ok(Value::Object(object))
+    }
+}
+
 /// The cache key of a request: path and query, `Accept` and canonical body; `None` when the
-/// body is not JSON (such requests are never cached).
+/// body is not JSON or repeats a key in an object (such requests are never cached, and the
+/// endpoint answers them as always).
 pub fn cache_key(target: &str, accept: &[u8], body: &[u8]) -> Option<[u8; 32]> {
-    let value: Value = serde_json::from_slice(body).ok()?;
+    let StrictValue(value) = serde_json::from_slice(body).ok()?;
     let text = serde_json::to_vec(&canonical(value)).ok()?;
     let mut hasher = Sha256::new();
     for part in [target.as_bytes(), accept, &text] {
@@ -303,6 +377,19 @@ mod tests {
         );
         assert_ne!(a, other_value);
         assert_eq!(cache_key("/v1/force-curve", b"", b"{not json"), None);
+        // A repeated key, at any depth, is never cached.
+        assert_eq!(
+            cache_key("/v1/force-curve", b"", br#"{"a": 1, "a": 2}"#),
+            None
+        );
+        assert_eq!(
+            cache_key(
+                "/v1/force-curve",
+                b"",
+                br#"{"b": [{"x": 1, "y": 2, "x": 1}]}"#
+            ),
+            None
+        );
     }
 
     #[test]

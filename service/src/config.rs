@@ -91,6 +91,46 @@ pub struct Config {
     )]
     pub max_sweep_points: usize,
 
+    /// Most client connections open at once; a connection above it is answered 503 with
+    /// `Retry-After` and closed (and lowered at start-up to fit the open-file limit).
+    #[arg(
+        long,
+        env = "RINGDRAG_MAX_CONNECTIONS",
+        default_value_t = DEFAULT_MAX_CONNECTIONS,
+        value_parser = clap::value_parser!(u32).range(1..=1_000_000)
+    )]
+    pub max_connections: u32,
+
+    /// Longest time a client may take to send a request's line and headers, from the moment
+    /// its first byte arrives, s; the connection is closed past it.
+    #[arg(
+        long,
+        env = "RINGDRAG_HEADER_READ_TIMEOUT_S",
+        default_value_t = 10,
+        value_parser = clap::value_parser!(u64).range(1..=3600)
+    )]
+    pub header_read_timeout_s: u64,
+
+    /// Longest time a connection may stay open without a request in flight and without
+    /// sending anything, s (keep-alive idle time; also bounds a connection that never sends).
+    #[arg(
+        long,
+        env = "RINGDRAG_IDLE_TIMEOUT_S",
+        default_value_t = 30,
+        value_parser = clap::value_parser!(u64).range(1..=86_400)
+    )]
+    pub idle_timeout_s: u64,
+
+    /// With API keys configured, wrong keys allowed a minute per client address; past it
+    /// every attempt from that address is answered 429 until the allowance refills.
+    #[arg(
+        long,
+        env = "RINGDRAG_AUTH_FAILURES_PER_MINUTE",
+        default_value_t = 10,
+        value_parser = clap::value_parser!(u32).range(1..)
+    )]
+    pub auth_failures_per_minute: u32,
+
     /// After SIGTERM or Ctrl+C, how long the service keeps serving with `/readyz` answering
     /// 503 before it stops accepting connections, s (time for a load balancer to notice).
     #[arg(long, env = "RINGDRAG_SHUTDOWN_DELAY_S", default_value_t = 0)]
@@ -132,6 +172,15 @@ pub struct Config {
     #[arg(long, env = "RINGDRAG_CLIENT_IP_HEADER")]
     pub client_ip_header: Option<HeaderName>,
 
+    /// Most clients the rate limiter tracks at once; past it the least recently seen client
+    /// is forgotten (and starts again with a full allowance).
+    #[arg(
+        long,
+        env = "RINGDRAG_RATE_LIMIT_MAX_CLIENTS",
+        default_value_t = crate::ratelimit::MAX_TRACKED
+    )]
+    pub rate_limit_max_clients: usize,
+
     /// Most answers kept in the response cache of identical force-curve and stroke requests;
     /// 0 turns the cache off.
     #[arg(long, env = "RINGDRAG_CACHE_ENTRIES", default_value_t = DEFAULT_CACHE_ENTRIES)]
@@ -146,6 +195,9 @@ pub struct Config {
     #[arg(long)]
     pub print_openapi: bool,
 }
+
+/// Default cap on open client connections.
+pub const DEFAULT_MAX_CONNECTIONS: u32 = 1024;
 
 /// Default number of cached answers.
 pub const DEFAULT_CACHE_ENTRIES: u64 = 1024;
@@ -221,6 +273,10 @@ impl Config {
             max_sim_time_s: Limits::default().max_time_s,
             max_samples: Limits::default().max_samples,
             max_sweep_points: Limits::default().max_sweep_points,
+            max_connections: DEFAULT_MAX_CONNECTIONS,
+            header_read_timeout_s: 10,
+            idle_timeout_s: 30,
+            auth_failures_per_minute: 10,
             shutdown_delay_s: 0,
             api_keys: ApiKeys::default(),
             api_keys_file: None,
@@ -229,6 +285,7 @@ impl Config {
             rate_limit_per_minute: 0,
             rate_limit_burst: None,
             client_ip_header: None,
+            rate_limit_max_clients: crate::ratelimit::MAX_TRACKED,
             cache_entries: DEFAULT_CACHE_ENTRIES,
             cache_max_bytes: DEFAULT_CACHE_MAX_BYTES,
             print_openapi: false,
@@ -266,6 +323,16 @@ impl Config {
         Duration::from_secs(self.request_timeout_s)
     }
 
+    /// Longest time for a request's line and headers.
+    pub fn header_read_timeout(&self) -> Duration {
+        Duration::from_secs(self.header_read_timeout_s)
+    }
+
+    /// Longest keep-alive idle time of a connection.
+    pub fn idle_timeout(&self) -> Duration {
+        Duration::from_secs(self.idle_timeout_s)
+    }
+
     /// Every accepted API key (`--api-keys` and `--api-keys-file` together); empty: keys off.
     pub fn all_api_keys(&self) -> ApiKeys {
         match &self.api_keys_file {
@@ -298,14 +365,14 @@ mod tests {
 
     #[test]
     fn a_refused_key_is_not_echoed() {
-        let secret = "0123456789abcdef0123456789abcdef,short-secret";
+        let secret = "7c1e94b03fa2d5685e0b9a3c4f7d21e6,short-secret";
         let Err(e) = Config::try_parse_from(["ringdrag", "--api-keys", secret]) else {
             panic!("a short key must be refused")
         };
         let text = e.to_string();
         assert!(text.contains("at least 16"), "{text}");
         assert!(!text.contains("short-secret"), "{text}");
-        assert!(!text.contains("0123456789abcdef"), "{text}");
+        assert!(!text.contains("7c1e94b03fa2d568"), "{text}");
         let Ok(parsed) = Config::try_parse_from(["ringdrag", "--api-keys", &secret[..32]]) else {
             panic!("a good key parses")
         };

@@ -151,6 +151,7 @@ mod tests {
             .into_iter()
             .collect(),
             error: Some("bad, \"very\"".into()),
+            error_estimate_relative: None,
         };
         assert_eq!(
             sweep_csv(&axes, &asked, &[point]),

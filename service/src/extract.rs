@@ -5,11 +5,12 @@
 //! - a body not declared as JSON: 415;
 //! - a body above `--max-body-bytes`: 413 (the rest of a moderately oversized body is read and
 //!   dropped first, so the client is able to read the answer instead of a reset connection);
-//! - malformed JSON (syntax, truncation, nesting deeper than serde_json's recursion limit of
-//!   128): 400;
-//! - well-formed JSON of the wrong shape (wrong type, unknown field, missing field, unknown
-//!   enum variant, a number out of range for its type): 422 with the field's dotted path, found
-//!   with `serde_path_to_error`.
+//! - malformed JSON (syntax, truncation): 400;
+//! - well-formed JSON of the wrong shape (wrong type, unknown or repeated field, missing field,
+//!   unknown enum variant, a number out of range for its type): 422 with the field's dotted
+//!   path, found with `serde_path_to_error`. Deeply nested JSON lands here too: no request
+//!   type nests anywhere near serde_json's recursion limit (128), so the typed parser meets
+//!   the first value of the wrong shape, and names it, long before the limit would answer 400.
 
 use crate::problem::{ApiError, FieldProblem};
 use crate::state::AppState;

@@ -138,6 +138,7 @@ impl JobRunner {
         let span = tracing::Span::current();
         let handle = tokio::task::spawn_blocking(move || {
             let _entered = span.enter();
+            crate::priority::lower_current_thread();
             let _permit = permit;
             let _in_flight = GaugeGuard::raise("ringdrag_jobs_in_flight", job);
             let started = std::time::Instant::now();
@@ -188,6 +189,7 @@ impl JobRunner {
         let span = tracing::Span::current();
         let handle = tokio::task::spawn_blocking(move || {
             let _entered = span.enter();
+            crate::priority::lower_current_thread();
             // The permit moves into the computation: its slot frees only when the work returns
             // (at the latest one cancellation check after the token fires).
             let _permit = permit;

@@ -14,6 +14,7 @@ pub mod access;
 pub mod api;
 pub mod cache;
 pub mod config;
+pub mod connections;
 pub mod csv;
 pub mod docs;
 pub mod extract;
@@ -21,6 +22,7 @@ pub mod jobs;
 pub mod middleware;
 pub mod negotiate;
 pub mod plot;
+pub mod priority;
 pub mod problem;
 pub mod ratelimit;
 pub mod serde_words;
@@ -37,13 +39,14 @@ use problem::ApiError;
 /// The application: every route of [`api::api_router`], problem answers for unknown routes
 /// and methods, and the middleware stack of [`middleware::apply`].
 pub fn router(state: AppState, config: &Config) -> Router {
+    let state_ready = state.clone();
     let (routes, _document) = api::api_router().split_for_parts();
     let routes = routes
         .merge(docs::routes())
         .fallback(not_found)
         .method_not_allowed_fallback(method_not_allowed)
         .with_state(state);
-    middleware::apply(routes, config)
+    middleware::apply(routes, config, &state_ready)
 }
 
 async fn not_found(uri: Uri) -> ApiError {

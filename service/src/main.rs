@@ -2,13 +2,13 @@
 //!
 //! Sets up logging and metrics, parses the configuration (flags with environment fallbacks,
 //! see `ringdrag --help`), binds, prints `ringdrag listening on http://ADDR` once bound, serves,
-//! and on SIGTERM or Ctrl+C turns `/readyz` to 503, keeps serving for `--shutdown-delay-s`,
-//! stops accepting, finishes in-flight requests (up to the request timeout plus a margin) and
-//! exits.
+//! and on SIGTERM or Ctrl+C turns `/readyz` to 503 and refuses new `/v1` work, keeps serving
+//! for `--shutdown-delay-s`, stops accepting, closes idle connections, finishes in-flight
+//! requests (up to the request timeout plus a margin, see [`connections`]) and exits.
 
 use anyhow::Context;
 use clap::Parser;
-use ringdrag_service::{AppState, Config, router, telemetry};
+use ringdrag_service::{AppState, Config, connections, router, telemetry};
 use std::io::Write;
 use std::time::Duration;
 
@@ -24,6 +24,8 @@ fn main() -> anyhow::Result<()> {
         return Ok(());
     }
     telemetry::init_tracing(config.log_format)?;
+    ringdrag_service::priority::init_compute_pool()
+        .context("cannot start the compute thread pool")?;
     let runtime = tokio::runtime::Builder::new_multi_thread()
         .enable_all()
         .build()
@@ -49,6 +51,25 @@ async fn serve(config: Config) -> anyhow::Result<()> {
         .await
         .with_context(|| format!("cannot listen on {}", config.listen))?;
     let address = listener.local_addr()?;
+    let file_limit = connections::raise_file_limit();
+    let max_connections = connections::fit_to_file_limit(
+        usize::try_from(config.max_connections).unwrap_or(usize::MAX),
+        file_limit,
+    );
+    if max_connections < config.max_connections as usize {
+        tracing::warn!(
+            wanted = config.max_connections,
+            max_connections,
+            open_file_limit = file_limit,
+            "connection cap lowered to fit the open-file limit"
+        );
+    }
+    let limits = connections::ConnectionLimits {
+        max_connections,
+        header_read_timeout: config.header_read_timeout(),
+        idle_timeout: config.idle_timeout(),
+        request_timeout: config.request_timeout(),
+    };
     {
         let mut out = std::io::stdout().lock();
         writeln!(out, "ringdrag listening on http://{address}")?;
@@ -64,36 +85,26 @@ async fn serve(config: Config) -> anyhow::Result<()> {
         cors_origins = config.cors_origins.0.len(),
         rate_limit_per_minute = config.rate_limit_per_minute,
         cache_entries = config.cache_entries,
+        max_connections,
+        header_read_timeout_s = config.header_read_timeout_s,
+        idle_timeout_s = config.idle_timeout_s,
         "serving"
     );
 
-    let (stop_tx, mut stop_rx) = tokio::sync::watch::channel(false);
+    let (stop_tx, stop_rx) = tokio::sync::watch::channel(false);
     let draining = state.clone();
     let delay = Duration::from_secs(config.shutdown_delay_s);
-    let shutdown = async move {
+    tokio::spawn(async move {
         shutdown_signal().await;
         draining.begin_shutdown();
         tracing::info!(
             delay_s = delay.as_secs(),
-            "shutdown requested; readiness is off"
+            "shutdown requested; readiness is off and new /v1 work is refused"
         );
         tokio::time::sleep(delay).await;
-        tracing::info!("no longer accepting; finishing in-flight requests");
         let _ = stop_tx.send(true);
-    };
-    // Connection info gives the rate limiter the peer address of each request.
-    let app = app.into_make_service_with_connect_info::<std::net::SocketAddr>();
-    let server = axum::serve(listener, app).with_graceful_shutdown(shutdown);
-    // Requests still open this long after the signal are abandoned.
-    let drain_deadline = config.request_timeout() + Duration::from_secs(5);
-    let deadline = async move {
-        let _ = stop_rx.wait_for(|stopped| *stopped).await;
-        tokio::time::sleep(drain_deadline).await;
-    };
-    tokio::select! {
-        served = server => served.context("server failed")?,
-        () = deadline => tracing::warn!("drain deadline passed; exiting with requests open"),
-    }
+    });
+    connections::serve(listener, app, limits, stop_rx).await;
     tracing::info!("stopped");
     Ok(())
 }

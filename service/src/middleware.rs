@@ -5,14 +5,17 @@
 //! 3. HTTP metrics: counts and latency histograms by method, route template and status;
 //! 4. CORS, when origins are configured ([`crate::access`]): answers preflights, and marks
 //!    every answer (refusals included, so a browser can read a 401 or 429) for allowed origins;
-//! 5. API keys, when configured ([`crate::access`]): 401 on `/v1/*` without a valid key;
-//! 6. rate limits, when configured ([`crate::ratelimit`]): 429 on `/v1/*` past a client's
+//! 5. request timeout: a backstop deadline answered as a problem document; it sits outside
+//!    every layer that reads the body (the cache), so a slow body is cut off on every route;
+//! 6. draining: once shutdown has begun, `/v1/*` is answered 503 `shutting-down`;
+//! 7. API keys, when configured ([`crate::access`]): 401 on `/v1/*` without a valid key,
+//!    429 for an address that sent too many wrong keys;
+//! 8. rate limits, when configured ([`crate::ratelimit`]): 429 on `/v1/*` past a client's
 //!    allowance;
-//! 7. response cache, unless turned off ([`crate::cache`]): repeated identical computing
+//! 9. response cache, unless turned off ([`crate::cache`]): repeated identical computing
 //!    requests answered from memory;
-//! 8. request timeout: a backstop deadline answered as a problem document;
-//! 9. panic safety net: a panicking handler answers a problem 500 instead of dropping the
-//!    connection.
+//! 10. panic safety net: a panicking handler answers a problem 500 instead of dropping the
+//!     connection.
 //!
 //! Metrics and tracing sit outside everything that can refuse a request, so that refusals
 //! (401, 413, 415, 422, 429, 503) are counted and logged like any answer. Keys come before the
@@ -20,18 +23,18 @@
 //! both before the cache, so that a cached answer is never served to a caller who could not
 //! have asked for it.
 
-use crate::access::{AccessPolicy, cors_layer, require_key};
+use crate::access::{AccessPolicy, GUARDED_PREFIX, cors_layer, require_key};
 use crate::cache::{ResponseCache, serve_cached};
 use crate::config::Config;
 use crate::problem::ApiError;
 use crate::ratelimit::{RateLimiter, limit_rate};
+use crate::state::AppState;
 use axum::Router;
 use axum::extract::{MatchedPath, Request, State};
 use axum::http::{HeaderName, Method};
 use axum::middleware::{self as axum_mw, Next};
 use axum::response::{IntoResponse, Response};
 use std::any::Any;
-use std::sync::Arc;
 use std::time::{Duration, Instant};
 use tower::ServiceBuilder;
 use tower_http::catch_panic::CatchPanicLayer;
@@ -46,14 +49,12 @@ pub const REQUEST_ID: HeaderName = HeaderName::from_static("x-request-id");
 /// own, more specific answer wins when both would fire.
 const BACKSTOP_MARGIN: Duration = Duration::from_secs(2);
 
-/// Wraps `routes` in the middleware stack described in the module documentation.
-pub fn apply(routes: Router, config: &Config) -> Router {
+/// Wraps `routes` in the middleware stack described in the module documentation; `state`'s
+/// readiness flag turns new `/v1` work away once shutdown begins.
+pub fn apply(routes: Router, config: &Config, state: &AppState) -> Router {
     let timeout = config.request_timeout() + BACKSTOP_MARGIN;
-    let inner = ServiceBuilder::new()
-        .layer(axum_mw::from_fn_with_state(timeout, enforce_timeout))
-        .layer(CatchPanicLayer::custom(panic_response));
     // Each `layer` call below wraps the previous ones: the last applied is the outermost.
-    let mut routes = routes.layer(inner);
+    let mut routes = routes.layer(CatchPanicLayer::custom(panic_response));
     if let Some(cache) = ResponseCache::new(
         config.cache_entries,
         config.cache_max_bytes,
@@ -62,23 +63,32 @@ pub fn apply(routes: Router, config: &Config) -> Router {
         routes = routes.layer(axum_mw::from_fn_with_state(cache, serve_cached));
     }
     if config.rate_limit_per_minute > 0 {
-        let limiter = RateLimiter::new(
+        let limiter = RateLimiter::with_capacity(
             config.rate_limit_per_minute,
             config
                 .rate_limit_burst
                 .unwrap_or(config.rate_limit_per_minute),
             config.client_ip_header.clone(),
+            config.rate_limit_max_clients,
         );
         routes = routes.layer(axum_mw::from_fn_with_state(limiter, limit_rate));
     }
     let keys = config.all_api_keys();
     if !keys.is_empty() {
-        let policy = AccessPolicy {
-            keys: Arc::new(keys),
-            protect_metrics: config.protect_metrics,
-        };
+        let policy = AccessPolicy::new(
+            keys,
+            config.protect_metrics,
+            config.auth_failures_per_minute,
+            config.client_ip_header.clone(),
+        );
         routes = routes.layer(axum_mw::from_fn_with_state(policy, require_key));
     }
+    routes = routes
+        .layer(axum_mw::from_fn_with_state(
+            state.clone(),
+            refuse_when_draining,
+        ))
+        .layer(axum_mw::from_fn_with_state(timeout, enforce_timeout));
     if let Some(cors) = cors_layer(&config.cors_origins) {
         routes = routes.layer(cors);
     }
@@ -92,6 +102,15 @@ pub fn apply(routes: Router, config: &Config) -> Router {
         )
         .layer(axum_mw::from_fn(track_http_metrics));
     routes.layer(outer)
+}
+
+/// Middleware: once shutdown has begun, answers every `/v1` request 503 `shutting-down`, so
+/// that no new work starts while the instance drains (probes and metrics still answer).
+async fn refuse_when_draining(State(state): State<AppState>, req: Request, next: Next) -> Response {
+    if !state.is_ready() && req.uri().path().starts_with(GUARDED_PREFIX) {
+        return ApiError::ShuttingDown.into_response();
+    }
+    next.run(req).await
 }
 
 fn request_span(req: &Request) -> tracing::Span {
@@ -182,7 +201,14 @@ mod tests {
 
     #[tokio::test]
     async fn a_panicking_handler_answers_a_problem_500() {
-        let app = apply(Router::new().route("/boom", get(boom)), &Config::defaults());
+        let config = Config::defaults();
+        let state = AppState::new(
+            &config,
+            metrics_exporter_prometheus::PrometheusBuilder::new()
+                .build_recorder()
+                .handle(),
+        );
+        let app = apply(Router::new().route("/boom", get(boom)), &config, &state);
         let request = HttpRequest::get("/boom")
             .header("x-request-id", "panic-probe")
             .body(Body::empty());

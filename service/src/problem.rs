@@ -103,6 +103,13 @@ pub enum ApiError {
         /// Suggested wait before retrying, s.
         retry_after_s: u64,
     },
+    /// The service already holds its maximum of open connections (answered by the accept
+    /// loop, before any request is read).
+    #[error("too many connections")]
+    TooManyConnections {
+        /// The connection cap.
+        limit: usize,
+    },
     /// The request did not finish within the request timeout.
     #[error("timed out after {timeout_s} s")]
     Timeout {
@@ -153,9 +160,10 @@ impl ApiError {
             Self::NotFound(_) => StatusCode::NOT_FOUND,
             Self::MethodNotAllowed => StatusCode::METHOD_NOT_ALLOWED,
             Self::NotAcceptable { .. } => StatusCode::NOT_ACCEPTABLE,
-            Self::Overloaded { .. } | Self::Timeout { .. } | Self::ShuttingDown => {
-                StatusCode::SERVICE_UNAVAILABLE
-            }
+            Self::Overloaded { .. }
+            | Self::TooManyConnections { .. }
+            | Self::Timeout { .. }
+            | Self::ShuttingDown => StatusCode::SERVICE_UNAVAILABLE,
             Self::Unauthorized { .. } => StatusCode::UNAUTHORIZED,
             Self::RateLimited { .. } => StatusCode::TOO_MANY_REQUESTS,
             Self::Internal(_) => StatusCode::INTERNAL_SERVER_ERROR,
@@ -231,6 +239,15 @@ impl ApiError {
                 format!(
                     "Every computation slot stayed busy for the whole queue wait; retry in about \
                      {retry_after_s} s."
+                ),
+                None,
+            ),
+            Self::TooManyConnections { limit } => (
+                Some("overloaded"),
+                "Service overloaded",
+                format!(
+                    "The service already holds its maximum of {limit} open connections; retry \
+                     in about 1 s, or reuse a kept-alive connection."
                 ),
                 None,
             ),
@@ -337,7 +354,7 @@ impl IntoResponse for ApiError {
                     crate::access::challenge(wrong_key),
                 );
             }
-            Self::ShuttingDown => {
+            Self::ShuttingDown | Self::TooManyConnections { .. } => {
                 headers.insert(header::RETRY_AFTER, HeaderValue::from(1u64));
             }
             _ => {}

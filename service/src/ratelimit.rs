@@ -13,9 +13,11 @@
 //! nearest proxy appended, which a client cannot forge (earlier entries it can). Use the
 //! header only behind such a proxy.
 //!
-//! Memory stays bounded: at most [`MAX_TRACKED`] buckets are kept; when the table is full,
-//! buckets that have refilled completely (indistinguishable from new ones) are dropped, at most
-//! once a second, and clients that still find no room share one overflow bucket.
+//! Memory stays bounded: at most [`MAX_TRACKED`] buckets are kept, and when the table is full
+//! the least recently used bucket makes room for the newcomer. Strangers cannot fill the table
+//! against anyone: a flood of new addresses only evicts buckets that were idle longest, and an
+//! evicted client starts again with a full bucket (the limiter errs towards allowing), so a new
+//! client is never refused because of what others sent.
 
 use crate::access::{GUARDED_PREFIX, KeyIndex};
 use crate::problem::ApiError;
@@ -23,16 +25,13 @@ use axum::extract::{ConnectInfo, Request, State};
 use axum::http::HeaderName;
 use axum::middleware::Next;
 use axum::response::{IntoResponse, Response};
-use std::collections::HashMap;
+use std::collections::{BTreeMap, HashMap};
 use std::net::{IpAddr, SocketAddr};
 use std::sync::{Arc, Mutex, PoisonError};
-use std::time::{Duration, Instant};
+use std::time::Instant;
 
-/// Most clients tracked at once (about 64 bytes each).
+/// Most clients tracked at once (about 100 bytes each).
 pub const MAX_TRACKED: usize = 65_536;
-
-/// Shortest time between two prunings of a full table.
-const PRUNE_INTERVAL: Duration = Duration::from_secs(1);
 
 /// Who a request counts against.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -41,7 +40,7 @@ pub enum ClientId {
     Key(usize),
     /// A client address.
     Address(IpAddr),
-    /// No address known, or no room left in the table: one shared bucket.
+    /// No address known: one shared bucket.
     Shared,
 }
 
@@ -50,6 +49,8 @@ pub enum ClientId {
 struct Bucket {
     tokens: f64,
     updated: Instant,
+    /// Position in the use order (larger: used more recently).
+    used: u64,
 }
 
 /// Token buckets of every client. Cheap to clone.
@@ -58,74 +59,110 @@ pub struct RateLimiter {
     inner: Arc<Mutex<Table>>,
     per_s: f64,
     burst: f64,
+    capacity: usize,
     client_ip_header: Option<HeaderName>,
 }
 
-#[derive(Debug)]
+/// The buckets, and their order of use for least-recently-used eviction.
+#[derive(Debug, Default)]
 struct Table {
     buckets: HashMap<ClientId, Bucket>,
-    last_prune: Option<Instant>,
+    by_use: BTreeMap<u64, ClientId>,
+    next_use: u64,
+}
+
+impl Table {
+    /// The bucket of `client`, marked as just used; a new one starts full (`full` tokens at
+    /// `now`), evicting the least recently used bucket when `capacity` is reached.
+    fn touch(&mut self, client: ClientId, full: f64, now: Instant, capacity: usize) -> &mut Bucket {
+        let used = self.next_use;
+        self.next_use += 1;
+        if let Some(old) = self.buckets.get(&client).map(|b| b.used) {
+            self.by_use.remove(&old);
+        } else {
+            while self.buckets.len() >= capacity.max(1) {
+                let Some((_, oldest)) = self.by_use.pop_first() else {
+                    break;
+                };
+                self.buckets.remove(&oldest);
+            }
+        }
+        self.by_use.insert(used, client);
+        let bucket = self.buckets.entry(client).or_insert(Bucket {
+            tokens: full,
+            updated: now,
+            used,
+        });
+        bucket.used = used;
+        bucket
+    }
 }
 
 impl RateLimiter {
     /// A limiter allowing `per_minute` requests a minute per client, in bursts of at most
     /// `burst` (both at least 1), keying address-based clients by `client_ip_header` when set.
     pub fn new(per_minute: u32, burst: u32, client_ip_header: Option<HeaderName>) -> Self {
+        Self::with_capacity(per_minute, burst, client_ip_header, MAX_TRACKED)
+    }
+
+    /// Like [`RateLimiter::new`], tracking at most `capacity` clients.
+    pub fn with_capacity(
+        per_minute: u32,
+        burst: u32,
+        client_ip_header: Option<HeaderName>,
+        capacity: usize,
+    ) -> Self {
         Self {
-            inner: Arc::new(Mutex::new(Table {
-                buckets: HashMap::new(),
-                last_prune: None,
-            })),
+            inner: Arc::new(Mutex::new(Table::default())),
             per_s: f64::from(per_minute.max(1)) / 60.0,
             burst: f64::from(burst.max(1)),
+            capacity: capacity.max(1),
             client_ip_header,
         }
+    }
+
+    /// Tokens of a bucket last seen with `tokens` at `updated`, refilled up to `now`.
+    fn refilled(&self, tokens: f64, updated: Instant, now: Instant) -> f64 {
+        let elapsed = now.saturating_duration_since(updated).as_secs_f64();
+        (tokens + elapsed * self.per_s).min(self.burst)
+    }
+
+    /// Seconds until a bucket holding `tokens` (< 1) has one token (at least 1).
+    fn wait_s(&self, tokens: f64) -> u64 {
+        (((1.0 - tokens) / self.per_s).ceil() as u64).max(1)
     }
 
     /// Takes a token for `client` at time `now`: `Ok` with the tokens left, or `Err` with the
     /// seconds until the next token (at least 1).
     pub fn take(&self, client: ClientId, now: Instant) -> Result<u32, u64> {
         let mut table = self.inner.lock().unwrap_or_else(PoisonError::into_inner);
-        let client = self.admit(&mut table, client, now);
-        let full = Bucket {
-            tokens: self.burst,
-            updated: now,
-        };
-        let bucket = table.buckets.entry(client).or_insert(full);
-        let elapsed = now.saturating_duration_since(bucket.updated).as_secs_f64();
-        bucket.tokens = (bucket.tokens + elapsed * self.per_s).min(self.burst);
+        let (burst, capacity) = (self.burst, self.capacity);
+        let bucket = table.touch(client, burst, now, capacity);
+        let tokens = self.refilled(bucket.tokens, bucket.updated, now);
         bucket.updated = now;
-        if bucket.tokens >= 1.0 {
-            bucket.tokens -= 1.0;
+        if tokens >= 1.0 {
+            bucket.tokens = tokens - 1.0;
             Ok(bucket.tokens as u32)
         } else {
-            let wait_s = (1.0 - bucket.tokens) / self.per_s;
-            Err((wait_s.ceil() as u64).max(1))
+            bucket.tokens = tokens;
+            Err(self.wait_s(tokens))
         }
     }
 
-    /// The identity `client` is tracked under: itself, or [`ClientId::Shared`] when the table
-    /// is full and pruning found no room.
-    fn admit(&self, table: &mut Table, client: ClientId, now: Instant) -> ClientId {
-        if table.buckets.len() < MAX_TRACKED || table.buckets.contains_key(&client) {
-            return client;
-        }
-        let due = table
-            .last_prune
-            .is_none_or(|t| now.saturating_duration_since(t) >= PRUNE_INTERVAL);
-        if due {
-            table.last_prune = Some(now);
-            let (per_s, burst) = (self.per_s, self.burst);
-            table.buckets.retain(|id, b| {
-                let refilled =
-                    b.tokens + now.saturating_duration_since(b.updated).as_secs_f64() * per_s;
-                *id == ClientId::Shared || refilled < burst
-            });
-        }
-        if table.buckets.len() < MAX_TRACKED {
-            client
-        } else {
-            ClientId::Shared
+    /// Whether `client` has a token at `now`, without taking it (and without tracking a
+    /// client not seen before): `Err` with the seconds until it has one.
+    pub fn check(&self, client: ClientId, now: Instant) -> Result<(), u64> {
+        let table = self.inner.lock().unwrap_or_else(PoisonError::into_inner);
+        match table.buckets.get(&client) {
+            Some(b) => {
+                let tokens = self.refilled(b.tokens, b.updated, now);
+                if tokens >= 1.0 {
+                    Ok(())
+                } else {
+                    Err(self.wait_s(tokens))
+                }
+            }
+            None => Ok(()),
         }
     }
 
@@ -143,25 +180,32 @@ impl RateLimiter {
         if let Some(KeyIndex(i)) = req.extensions().get::<KeyIndex>() {
             return ClientId::Key(*i);
         }
-        if let Some(name) = &self.client_ip_header {
-            let forwarded = req
-                .headers()
-                .get_all(name)
-                .iter()
-                .filter_map(|v| v.to_str().ok())
-                .flat_map(|v| v.split(','))
-                .filter_map(|item| parse_address(item.trim()))
-                .next_back();
-            if let Some(address) = forwarded {
-                return ClientId::Address(address);
-            }
-        }
-        req.extensions()
-            .get::<ConnectInfo<SocketAddr>>()
-            .map_or(ClientId::Shared, |ConnectInfo(peer)| {
-                ClientId::Address(peer.ip())
-            })
+        client_address(req, self.client_ip_header.as_ref())
     }
+}
+
+/// The client address of a request: the last address in `client_ip_header` when that is set
+/// and present, otherwise the connection's peer address; [`ClientId::Shared`] when neither is
+/// known.
+pub fn client_address(req: &Request, client_ip_header: Option<&HeaderName>) -> ClientId {
+    if let Some(name) = client_ip_header {
+        let forwarded = req
+            .headers()
+            .get_all(name)
+            .iter()
+            .filter_map(|v| v.to_str().ok())
+            .flat_map(|v| v.split(','))
+            .filter_map(|item| parse_address(item.trim()))
+            .next_back();
+        if let Some(address) = forwarded {
+            return ClientId::Address(address);
+        }
+    }
+    req.extensions()
+        .get::<ConnectInfo<SocketAddr>>()
+        .map_or(ClientId::Shared, |ConnectInfo(peer)| {
+            ClientId::Address(peer.ip())
+        })
 }
 
 /// An address as proxies write it: `203.0.113.7`, `2001:db8::1`, `[2001:db8::1]:443` or
@@ -190,6 +234,7 @@ pub async fn limit_rate(State(limiter): State<RateLimiter>, req: Request, next: 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use std::time::Duration;
 
     fn ip(text: &str) -> ClientId {
         ClientId::Address(text.parse().unwrap_or(IpAddr::from([0, 0, 0, 0])))
@@ -229,24 +274,63 @@ mod tests {
         );
     }
 
+    fn address(i: u32) -> ClientId {
+        let o = i.to_be_bytes();
+        ClientId::Address(IpAddr::from([10, o[1], o[2], o[3]]))
+    }
+
     #[test]
-    fn the_table_stays_bounded() {
-        let limiter = RateLimiter::new(60, 2, None);
+    fn strangers_cannot_fill_the_table_against_a_newcomer() {
+        // A small table (the eviction does not depend on its size). One request a minute,
+        // burst 1: every stranger empties its own bucket with its first request.
+        let capacity = 64;
+        let limiter = RateLimiter::with_capacity(1, 1, None, capacity);
         let t0 = Instant::now();
-        for i in 0..MAX_TRACKED {
-            let octets = (i as u32).to_be_bytes();
-            let id = ClientId::Address(IpAddr::from([10, octets[1], octets[2], octets[3]]));
-            assert!(limiter.take(id, t0).is_ok());
+        let regular = ip("192.0.2.10");
+        assert_eq!(limiter.take(regular, t0), Ok(0));
+        assert_eq!(limiter.take(regular, t0), Err(60));
+        // Twice the table's size of distinct addresses, all at the same instant.
+        for i in 0..(2 * capacity as u32) {
+            assert!(limiter.take(address(i), t0).is_ok(), "stranger {i}");
         }
-        assert_eq!(limiter.tracked(), MAX_TRACKED);
-        // Full and nothing refilled yet: a newcomer goes to the shared bucket.
-        let newcomer = ip("198.51.100.1");
-        assert!(limiter.take(newcomer, t0).is_ok());
-        assert!(limiter.tracked() <= MAX_TRACKED + 1);
-        // Two seconds later every bucket has refilled: pruning makes room again.
-        let later = t0 + Duration::from_secs(2);
-        assert!(limiter.take(ip("198.51.100.2"), later).is_ok());
-        assert!(limiter.tracked() <= 3, "{}", limiter.tracked());
+        assert_eq!(limiter.tracked(), capacity);
+        // A new client still gets its first request, at that same instant.
+        assert_eq!(limiter.take(ip("198.51.100.1"), t0), Ok(0));
+        assert_eq!(limiter.tracked(), capacity);
+        // The regular client was idle longest and was evicted: it starts again full, which
+        // errs towards allowing, never towards refusing.
+        assert_eq!(limiter.take(regular, t0), Ok(0));
+    }
+
+    #[test]
+    fn the_recently_used_stay_and_the_idle_go() {
+        let limiter = RateLimiter::with_capacity(60, 2, None, 3);
+        let t0 = Instant::now();
+        let (a, b, c, d) = (address(1), address(2), address(3), address(4));
+        for id in [a, b, c] {
+            assert_eq!(limiter.take(id, t0), Ok(1));
+        }
+        // `a` is used again, so `b` is now the least recently used and makes room for `d`.
+        assert_eq!(limiter.take(a, t0), Ok(0));
+        assert_eq!(limiter.take(d, t0), Ok(1));
+        assert_eq!(limiter.tracked(), 3);
+        assert_eq!(limiter.take(a, t0), Err(1), "a kept its emptied bucket");
+        assert_eq!(limiter.take(b, t0), Ok(1), "b was evicted and starts full");
+    }
+
+    #[test]
+    fn check_does_not_take_or_track() {
+        let limiter = RateLimiter::new(60, 1, None);
+        let t0 = Instant::now();
+        let a = ip("192.0.2.1");
+        assert_eq!(limiter.check(a, t0), Ok(()));
+        assert_eq!(limiter.tracked(), 0);
+        assert_eq!(limiter.take(a, t0), Ok(0));
+        assert_eq!(limiter.check(a, t0), Err(1));
+        assert_eq!(
+            limiter.check(a, t0 + std::time::Duration::from_secs(1)),
+            Ok(())
+        );
     }
 
     #[test]

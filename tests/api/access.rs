@@ -7,7 +7,7 @@ use std::time::Duration;
 
 /// Invented test keys (64 hex characters, the shape `openssl rand -hex 32` makes).
 const KEY_ENV: &str = "5f0c1d9e8a7b6c5d4e3f2a1b0c9d8e7f6a5b4c3d2e1f0a9b8c7d6e5f4a3b2c1d";
-const KEY_FILE: &str = "0a1b2c3d4e5f60718293a4b5c6d7e8f90a1b2c3d4e5f60718293a4b5c6d7e8f9";
+const KEY_FILE: &str = "d5f78e4847233eb8114828b7edb1bbf00021132e29a9397ee58fca73ae180737";
 
 /// Writes `text` to a fresh file in the system's temporary directory and returns its path.
 fn temp_file(name: &str, text: &str) -> std::path::PathBuf {
@@ -180,6 +180,12 @@ fn bad_key_configurations_refuse_to_start() {
     assert!(!ok && err.contains("cannot read the API key file"), "{err}");
     let (ok, err) = start_and_expect_exit(&[("RINGDRAG_API_KEYS", "short")]);
     assert!(!ok && err.contains("at least 16"), "{err}");
+    // Long enough but obvious keys are refused too, without echoing them.
+    for weak in ["abcdefghijklmnop", "passwordpassword", "1111111111111111"] {
+        let (ok, err) = start_and_expect_exit(&[("RINGDRAG_API_KEYS", weak)]);
+        assert!(!ok && err.contains("too easy to guess"), "{weak}: {err}");
+        assert!(!err.contains(weak), "the refused key is echoed: {err}");
+    }
     let (ok, err) = start_and_expect_exit(&[("RINGDRAG_CORS_ORIGINS", "*")]);
     assert!(!ok && err.contains("CORS origin"), "{err}");
 }
@@ -310,6 +316,117 @@ async fn rate_limits_apply_per_address_without_keys() {
     let app = spawn_app_with(&["--rate-limit-per-minute", "1"], &[], Logs::Quiet).await;
     assert_eq!(app.get("/v1/materials").await.status().as_u16(), 200);
     expect_problem(app.get("/v1/materials").await, 429).await;
+}
+
+#[tokio::test]
+async fn wrong_keys_are_throttled_per_address() {
+    // Three wrong keys a minute per address; addresses from the forwarded header.
+    let app = keyed_app(
+        &[
+            "--auth-failures-per-minute",
+            "3",
+            "--client-ip-header",
+            "x-forwarded-for",
+        ],
+        &[],
+    )
+    .await;
+    let attempt = |address: &'static str, key: &str| {
+        app.client
+            .get(format!("{}/v1/materials", app.base))
+            .header("x-forwarded-for", address)
+            .header("authorization", format!("Bearer {key}"))
+            .send()
+    };
+    let wrong = "f3a9c27e5d1b80466e2d9a7c1b5f3e08";
+    // Documentation addresses (source: RFC 5737, TEST-NET-3 and TEST-NET-2).
+    for _ in 0..3 {
+        expect_problem(attempt("203.0.113.9", wrong).await.expect("sent"), 401).await;
+    }
+    // The allowance is used up: every attempt from that address is refused, the right key
+    // included, until it refills (one a minute here).
+    let r = attempt("203.0.113.9", wrong).await.expect("sent");
+    let retry: u64 = header(&r, "retry-after")
+        .and_then(|v| v.parse().ok())
+        .expect("Retry-After in whole seconds");
+    assert!((1..=60).contains(&retry), "{retry}");
+    let problem = expect_problem(r, 429).await;
+    assert_eq!(problem["type"], "urn:ringdrag:problem:rate-limited");
+    expect_problem(attempt("203.0.113.9", KEY_ENV).await.expect("sent"), 429).await;
+    // Another address is not affected.
+    let r = attempt("198.51.100.4", KEY_ENV).await.expect("sent");
+    assert_eq!(r.status().as_u16(), 200);
+    let metrics = app.get("/metrics").await.text().await.expect("metrics");
+    assert!(
+        metrics.contains("ringdrag_auth_throttled_total"),
+        "{metrics}"
+    );
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn strangers_cannot_fill_the_rate_limit_table() {
+    // One request a minute per forwarded address, a table of 256 clients.
+    let app = spawn_app_with(
+        &[
+            "--rate-limit-per-minute",
+            "1",
+            "--client-ip-header",
+            "x-forwarded-for",
+            "--rate-limit-max-clients",
+            "256",
+        ],
+        &[],
+        Logs::Quiet,
+    )
+    .await;
+    let from = |address: String| {
+        app.client
+            .get(format!("{}/v1/materials", app.base))
+            .header("x-forwarded-for", address)
+            .send()
+    };
+    // 1,000 distinct strangers (four times the table), each using up its allowance.
+    let mut sent = 0;
+    for i in 0..1000u32 {
+        let o = i.to_be_bytes();
+        let address = format!("10.{}.{}.{}", o[1], o[2], o[3]);
+        let r = from(address).await.expect("sent");
+        assert_eq!(r.status().as_u16(), 200, "stranger {i} was refused");
+        sent += 1;
+    }
+    assert_eq!(sent, 1000);
+    // A new client is served on its first request, and limited on its second as usual.
+    let newcomer = || from("203.0.113.50".to_string());
+    assert_eq!(newcomer().await.expect("sent").status().as_u16(), 200);
+    expect_problem(newcomer().await.expect("sent"), 429).await;
+}
+
+#[tokio::test]
+async fn a_body_with_a_repeated_key_is_refused_cold_and_warm() {
+    let app = spawn_app().await;
+    let design = sample_design().to_string();
+    // The same field twice; the endpoint's parser refuses it (serde: duplicate field).
+    let repeated =
+        format!(r#"{{"design": {design}, "speeds_m_per_s": [0.1], "speeds_m_per_s": [0.2]}}"#);
+    let post = |body: String| {
+        app.post_raw(
+            "/v1/force-curve",
+            body.into_bytes(),
+            Some("application/json"),
+        )
+    };
+    let cold = expect_problem(post(repeated.clone()).await, 422).await;
+    // Warm the cache with the body that holds only the last value.
+    let last_only = format!(r#"{{"design": {design}, "speeds_m_per_s": [0.2]}}"#);
+    let r = post(last_only.clone()).await;
+    assert_eq!(r.status().as_u16(), 200);
+    let r = post(last_only).await;
+    assert_eq!(header(&r, "x-cache").as_deref(), Some("hit"));
+    // The repeated-key body is refused again, with the same problem, not answered from memory.
+    let warm = expect_problem(post(repeated).await, 422).await;
+    assert_eq!(cold["type"], warm["type"]);
+    assert_eq!(cold["errors"], warm["errors"]);
+    assert_eq!(cold["type"], "urn:ringdrag:problem:invalid-input");
 }
 
 fn jobs_ok(metrics: &str) -> u64 {

@@ -41,7 +41,26 @@ pub(crate) async fn spawn_app() -> TestApp {
 
 /// Starts the server with extra arguments and environment variables.
 pub(crate) async fn spawn_app_with(args: &[&str], env: &[(&str, &str)], logs: Logs) -> TestApp {
-    let mut cmd = Command::new(env!("CARGO_BIN_EXE_ringdrag"));
+    spawn(
+        Command::new(env!("CARGO_BIN_EXE_ringdrag")),
+        args,
+        env,
+        logs,
+    )
+    .await
+}
+
+/// Starts the server through `sh` under an open-file limit of `files` (soft and hard), as a
+/// host with a low limit would run it.
+pub(crate) async fn spawn_app_with_file_limit(files: u64, args: &[&str]) -> TestApp {
+    let mut cmd = Command::new("sh");
+    cmd.arg("-c")
+        .arg(format!("ulimit -n {files} && exec \"$0\" \"$@\""))
+        .arg(env!("CARGO_BIN_EXE_ringdrag"));
+    spawn(cmd, args, &[], Logs::Quiet).await
+}
+
+async fn spawn(mut cmd: Command, args: &[&str], env: &[(&str, &str)], logs: Logs) -> TestApp {
     for (key, _) in std::env::vars() {
         if key.starts_with("RINGDRAG_") {
             cmd.env_remove(key);

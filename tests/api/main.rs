@@ -6,6 +6,7 @@
 mod access;
 mod bounded;
 mod concurrency;
+mod connections;
 mod csv_answers;
 mod error_texts;
 mod errors;

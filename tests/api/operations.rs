@@ -199,7 +199,7 @@ async fn readiness_turns_off_before_the_listener_closes() {
     let mut app = spawn_app_with(&["--shutdown-delay-s", "4"], &[], Logs::Quiet).await;
     assert_eq!(app.get("/readyz").await.status().as_u16(), 200);
     app.terminate();
-    // Within the delay: not ready (a problem with Retry-After), but alive and still computing.
+    // Within the delay: not ready (a problem with Retry-After), alive, and refusing new work.
     let mut turned = false;
     for _ in 0..100 {
         let r = app.get("/readyz").await;
@@ -213,9 +213,16 @@ async fn readiness_turns_off_before_the_listener_closes() {
         tokio::time::sleep(Duration::from_millis(10)).await;
     }
     assert!(turned, "readiness never turned off");
+    // Still alive, but no new computing work is taken: 503 shutting-down with Retry-After.
     app.assert_healthy().await;
-    app.post_ok("/v1/force-curve", &json!({ "design": sample_design() }))
+    let r = app
+        .post_json("/v1/force-curve", &json!({ "design": sample_design() }))
         .await;
+    assert!(r.headers().get("retry-after").is_some());
+    let problem = expect_problem(r, 503).await;
+    assert_eq!(problem["type"], "urn:ringdrag:problem:shutting-down");
+    let r = app.get("/v1/materials").await;
+    expect_problem(r, 503).await;
     let status = tokio::time::timeout(Duration::from_secs(20), app.child.wait())
         .await
         .expect("the server exits after the delay")

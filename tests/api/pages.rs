@@ -31,7 +31,7 @@ async fn the_index_points_to_the_reference_and_the_workbench() {
 async fn the_reference_and_the_workbench_are_served_from_the_binary() {
     // With keys configured the pages stay open; only /v1/ needs a key.
     let app = spawn_app_with(
-        &["--api-keys", "pages-test-key-0123456789abcdef"],
+        &["--api-keys", "9f3c1a7e5b2d48c6a0e4f1b9d7c35a82"],
         &[],
         Logs::Quiet,
     )

@@ -356,6 +356,9 @@ pub struct SweepPointDto {
     /// Why the point failed (for example a magnet wider than the bore at this corner of the
     /// grid), or null.
     pub error: Option<String>,
+    /// Estimated relative numerical error of this point's metrics (the change between two
+    /// resolutions), or null when not estimated.
+    pub error_estimate_relative: Option<f64>,
 }
 
 impl SweepPointDto {
@@ -366,6 +369,7 @@ impl SweepPointDto {
             metrics: PointMetrics::in_order(&p.metrics, asked),
             inputs: p.inputs,
             error: p.error,
+            error_estimate_relative: p.error_estimate_relative.filter(|x| x.is_finite()),
         }
     }
 }
@@ -388,7 +392,8 @@ pub struct SweepResponse {
     pub cautions: Vec<String>,
     /// The same cautions with their kinds.
     pub caution_details: Vec<CautionDetail>,
-    /// Method and fidelity; each point chooses its own discretisation.
+    /// Method and fidelity; each point chooses its own discretisation. Its
+    /// `error_estimate_relative` is the largest of the points'.
     pub model: ModelBlock,
 }
 
@@ -468,7 +473,13 @@ impl SweepResponse {
         }
         let (cautions, caution_details) = cautions(notes);
         let mut check = FiniteCheck::default();
-        let model = ModelBlock::from_model(sweep.model.clone(), &mut check);
+        // The whole sweep's estimate: the largest of its points'.
+        let mut info = sweep.model.clone();
+        info.error_estimate_relative = points
+            .iter()
+            .filter_map(|p| p.error_estimate_relative)
+            .reduce(f64::max);
+        let model = ModelBlock::from_model(info, &mut check);
         check.finish(Self {
             axes: axes_dto(&sweep.plan),
             metrics: sweep.plan.metrics().to_vec(),
@@ -566,9 +577,13 @@ fn ndjson_body(state: StreamState) -> Body {
         if st.finished {
             return None;
         }
+        // The deadline first: once it has passed, the stream ends as timed out even when the
+        // computation's last lines (or its `Done`, sent as the cancelled job wound down) are
+        // already queued; an unbiased choice between two ready branches made that a coin toss.
         let next = tokio::select! {
-            line = st.lines.recv() => Some(line),
+            biased;
             () = tokio::time::sleep_until(st.deadline) => None,
+            line = st.lines.recv() => Some(line),
         };
         let bytes = match next {
             Some(Some(Line::Point { bytes, failed })) => {

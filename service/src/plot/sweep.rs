@@ -294,6 +294,7 @@ mod tests {
             inputs: [("a".to_string(), x)].into_iter().collect(),
             metrics: [("m".to_string(), y)].into_iter().collect(),
             error: None,
+            error_estimate_relative: None,
         };
         let pts = [
             point(3.0, Some(3.0)),
