@@ -55,6 +55,12 @@ if [[ ! -x "${venv}/bin/schemathesis" ]]; then
 fi
 "${venv}/bin/schemathesis" --version
 
+echo "== fuzz: request examples of the document against their schemas"
+"${venv}/bin/python" -c 'import jsonschema' >/dev/null 2>&1 ||
+    "${venv}/bin/python" -m pip install --quiet --disable-pip-version-check "jsonschema>=4.18,<5" >/dev/null 2>&1 ||
+    { echo "fuzz: pip could not install jsonschema"; exit 1; }
+"${venv}/bin/python" .ci/check_examples.py openapi/openapi.json
+
 echo "== fuzz: building the release binary"
 cargo build --release --quiet -p ringdrag-service --bin ringdrag
 binary="${CARGO_TARGET_DIR:-target}/release/ringdrag"

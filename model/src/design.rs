@@ -9,6 +9,7 @@
 use crate::MU0;
 use crate::caution::{Caution, CautionKind};
 use crate::error::{FieldError, ModelError, show};
+use crate::fieldtext;
 use crate::materials::{self, LookupError};
 use crate::spec::{DesignSpec, Polarity};
 
@@ -311,7 +312,10 @@ impl Design {
             } else if v <= 0.0 {
                 errs.push(FieldError::new(path, "must be greater than zero"));
             } else if v > max {
-                errs.push(FieldError::new(path, format!("must be at most {max}")));
+                errs.push(FieldError::new(
+                    path,
+                    fieldtext::out_of_range(path, v, 0.0, max, true),
+                ));
             }
         };
         positive(
@@ -375,7 +379,7 @@ impl Design {
                 None => {
                     errs.push(FieldError::new(
                         "magnets.grade",
-                        format!("unknown grade '{id}'; see GET /v1/materials"),
+                        materials::unknown_grade_message(id),
                     ));
                     None
                 }
@@ -418,17 +422,14 @@ impl Design {
                 Err(LookupError::Ferromagnetic) => {
                     errs.push(FieldError::new(
                         "tube.material",
-                        format!(
-                            "'{id}' is ferromagnetic: the model assumes relative permeability 1 and \
-                             cannot represent magnetic tubes (attraction, flux guiding, saturation)"
-                        ),
+                        materials::ferromagnetic_message(id),
                     ));
                     None
                 }
                 Err(LookupError::Unknown) => {
                     errs.push(FieldError::new(
                         "tube.material",
-                        format!("unknown material '{id}'; see GET /v1/materials"),
+                        materials::unknown_conductor_message(id),
                     ));
                     None
                 }
@@ -711,14 +712,10 @@ fn range(errs: &mut Vec<FieldError>, path: &str, v: f64, lo: f64, hi: f64) {
     } else if v.is_subnormal() {
         errs.push(FieldError::new(path, SUBNORMAL));
     } else if v < lo || v > hi {
-        let lo_txt = if lo == f64::MIN_POSITIVE {
-            "greater than 0".to_string()
-        } else {
-            format!("at least {lo}")
-        };
+        let lo_exclusive = lo == f64::MIN_POSITIVE;
         errs.push(FieldError::new(
             path,
-            format!("must be {lo_txt} and at most {hi}"),
+            fieldtext::out_of_range(path, v, lo, hi, lo_exclusive),
         ));
     }
 }

@@ -18,6 +18,7 @@ pub mod designpath;
 pub mod dragprofile;
 pub mod elliptic;
 pub mod error;
+pub mod fieldtext;
 pub mod flux;
 pub mod forcecurve;
 pub mod heat;

@@ -77,23 +77,44 @@ pub struct MagnetGrade {
     pub source: &'static str,
 }
 
-/// Conductivity from a percentage of IACS, S/m.
-const fn iacs(percent: f64) -> f64 {
-    percent * 0.01 * IACS_S_PER_M
+/// How a row's conductivity was given by its source.
+#[derive(Debug, Clone, Copy)]
+enum Given {
+    /// As a percentage of IACS.
+    Iacs(f64),
+    /// As a resistivity in micro-ohm centimetres.
+    MicroOhmCm(f64),
 }
 
-/// Conductivity from a resistivity in micro-ohm centimetres, S/m.
-const fn from_micro_ohm_cm(resistivity: f64) -> f64 {
-    1.0 / (resistivity * 1.0e-8)
+impl Given {
+    /// Conductivity, S/m. From %IACS it is the percentage times 580 000 S/m (IACS / 100),
+    /// exact for the table's whole and one-decimal percentages, so 55 %IACS is 31 900 000 S/m
+    /// and not a float's neighbour of it.
+    const fn s_per_m(self) -> f64 {
+        match self {
+            Self::Iacs(percent) => percent * (IACS_S_PER_M / 100.0),
+            Self::MicroOhmCm(resistivity) => 1.0 / (resistivity * 1.0e-8),
+        }
+    }
+
+    /// Conductivity in %IACS: the source's figure itself when it gave one.
+    const fn iacs_percent(self) -> f64 {
+        match self {
+            Self::Iacs(percent) => percent,
+            Self::MicroOhmCm(_) => self.s_per_m() / IACS_S_PER_M * 100.0,
+        }
+    }
 }
+
+use Given::{Iacs, MicroOhmCm};
 
 macro_rules! conductor {
     ($id:expr, $name:expr, $sigma:expr, $alpha:expr, $rho:expr, $cp:expr, $src:expr, $notes:expr) => {
         Conductor {
             id: $id,
             name: $name,
-            conductivity_s_per_m: $sigma,
-            iacs_percent: $sigma / IACS_S_PER_M * 100.0,
+            conductivity_s_per_m: $sigma.s_per_m(),
+            iacs_percent: $sigma.iacs_percent(),
             resistivity_temperature_coefficient_per_k: $alpha,
             density_kg_per_m3: $rho,
             specific_heat_j_per_kg_k: $cp,
@@ -107,7 +128,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "aluminium-1100",
         "Aluminium 1100 (commercially pure)",
-        iacs(59.0),
+        Iacs(59.0),
         0.0039,
         2710.0,
         904.0,
@@ -117,7 +138,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "aluminium-3003-h14",
         "Aluminium 3003-H14",
-        iacs(41.0),
+        Iacs(41.0),
         0.0027,
         2730.0,
         893.0,
@@ -127,7 +148,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "aluminium-6061-t6",
         "Aluminium 6061-T6",
-        iacs(43.0),
+        Iacs(43.0),
         0.0028,
         2700.0,
         896.0,
@@ -137,7 +158,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "aluminium-6063-t5",
         "Aluminium 6063-T5",
-        iacs(55.0),
+        Iacs(55.0),
         0.0036,
         2690.0,
         900.0,
@@ -147,7 +168,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "aluminium-6082-t6",
         "Aluminium 6082-T6",
-        iacs(46.0),
+        Iacs(46.0),
         0.0030,
         2700.0,
         900.0,
@@ -157,7 +178,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "aluminium-2024-t3",
         "Aluminium 2024-T3",
-        iacs(30.0),
+        Iacs(30.0),
         0.0020,
         2780.0,
         875.0,
@@ -167,7 +188,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "aluminium-7075-t6",
         "Aluminium 7075-T6",
-        iacs(33.0),
+        Iacs(33.0),
         0.0022,
         2810.0,
         960.0,
@@ -177,7 +198,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "copper-c10100",
         "Copper C10100 (oxygen-free electronic)",
-        iacs(101.0),
+        Iacs(101.0),
         0.00393,
         8940.0,
         385.0,
@@ -187,7 +208,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "copper-c11000",
         "Copper C11000 (electrolytic tough pitch)",
-        iacs(100.0),
+        Iacs(100.0),
         0.00393,
         8940.0,
         385.0,
@@ -197,7 +218,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "copper-c12200",
         "Copper C12200 (phosphorus-deoxidised, plumbing tube)",
-        iacs(85.0),
+        Iacs(85.0),
         0.0033,
         8940.0,
         385.0,
@@ -207,7 +228,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "brass-c26000",
         "Cartridge brass C26000 (70/30)",
-        iacs(28.0),
+        Iacs(28.0),
         0.0015,
         8530.0,
         377.0,
@@ -217,7 +238,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "bronze-c51000",
         "Phosphor bronze C51000 (5 % Sn)",
-        iacs(15.0),
+        Iacs(15.0),
         0.0006,
         8860.0,
         380.0,
@@ -227,7 +248,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "stainless-304-annealed",
         "Austenitic stainless steel 304, annealed",
-        from_micro_ohm_cm(72.0),
+        MicroOhmCm(72.0),
         0.00097,
         8000.0,
         500.0,
@@ -237,7 +258,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "magnesium-az31b",
         "Magnesium alloy AZ31B",
-        from_micro_ohm_cm(9.2),
+        MicroOhmCm(9.2),
         0.0018,
         1770.0,
         1000.0,
@@ -247,7 +268,7 @@ static CONDUCTORS: [Conductor; 15] = [
     conductor!(
         "titanium-grade-2",
         "Titanium grade 2 (commercially pure)",
-        iacs(3.1),
+        Iacs(3.1),
         0.0035,
         4510.0,
         523.0,
@@ -491,10 +512,11 @@ pub enum LookupError {
     Ferromagnetic,
 }
 
-/// Finds a conductor by id (case-insensitive). Ferromagnetic materials are recognised and
+/// Finds a conductor by id (case-insensitive; spaces and underscores read as hyphens, and the
+/// American spelling `aluminum` as `aluminium`). Ferromagnetic materials are recognised and
 /// refused with [`LookupError::Ferromagnetic`]; austenitic stainless 304 is in the table.
 pub fn find_conductor(id: &str) -> Result<&'static Conductor, LookupError> {
-    let wanted = id.trim().to_ascii_lowercase();
+    let wanted = conductor_spelling(id);
     if let Some(row) = CONDUCTORS.iter().find(|c| c.id == wanted) {
         return Ok(row);
     }
@@ -506,8 +528,186 @@ pub fn find_conductor(id: &str) -> Result<&'static Conductor, LookupError> {
 
 /// Finds a magnet grade by id (case-insensitive).
 pub fn find_grade(id: &str) -> Option<&'static MagnetGrade> {
-    let wanted = id.trim();
-    GRADES.iter().find(|g| g.id.eq_ignore_ascii_case(wanted))
+    let wanted = grade_spelling(id);
+    GRADES.iter().find(|g| grade_spelling(g.id) == wanted)
+}
+
+/// A conductor id as the table spells it: lower case, hyphens between words, `aluminium`.
+fn conductor_spelling(id: &str) -> String {
+    id.trim()
+        .to_ascii_lowercase()
+        .replace([' ', '_'], "-")
+        .replace("aluminum", "aluminium")
+}
+
+/// A grade id compared without case, spaces or hyphens (`n-42 sh` is `N42SH`).
+fn grade_spelling(id: &str) -> String {
+    id.chars()
+        .filter(|c| !matches!(c, ' ' | '-' | '_'))
+        .flat_map(char::to_lowercase)
+        .collect()
+}
+
+/// Edit distance (Levenshtein: insertions, deletions, substitutions) between two strings.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut row: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut diagonal = row[0];
+        row[0] = i + 1;
+        for (j, cb) in b.iter().enumerate() {
+            let above = row[j + 1];
+            row[j + 1] = (diagonal + usize::from(ca != *cb))
+                .min(above + 1)
+                .min(row[j] + 1);
+            diagonal = above;
+        }
+    }
+    row[b.len()]
+}
+
+/// Up to three ids nearest to `wanted` among `ids` (all in one spelling): first the ids
+/// holding every word of `wanted` (`6061` finds `aluminium-6061-t6`, `copper` the coppers),
+/// then those within a few edits of it.
+fn nearest(wanted: &str, ids: impl Iterator<Item = (&'static str, String)>) -> Vec<&'static str> {
+    let words: Vec<&str> = wanted
+        .split(|c: char| !c.is_ascii_alphanumeric())
+        .filter(|w| w.len() >= 2)
+        .collect();
+    let mut scored: Vec<(usize, &'static str)> = Vec::new();
+    for (id, spelled) in ids {
+        let distance = edit_distance(wanted, &spelled);
+        if !words.is_empty() && words.iter().all(|w| spelled.contains(w)) {
+            scored.push((0, id));
+        } else if distance <= (wanted.chars().count() / 3).max(2) {
+            scored.push((distance, id));
+        }
+    }
+    // Ids holding every word are the answer when there are any.
+    if scored.iter().any(|(d, _)| *d == 0) && !words.is_empty() {
+        scored.retain(|(d, _)| *d == 0);
+    }
+    scored.sort_by_key(|(d, _)| *d);
+    scored.into_iter().take(3).map(|(_, id)| id).collect()
+}
+
+/// Conductor ids nearest to an unknown `id` (at most three, best first).
+pub fn suggest_conductors(id: &str) -> Vec<&'static str> {
+    nearest(
+        &conductor_spelling(id),
+        CONDUCTORS.iter().map(|c| (c.id, c.id.to_string())),
+    )
+}
+
+/// Grade ids nearest to an unknown `id` (at most three, best first).
+pub fn suggest_grades(id: &str) -> Vec<&'static str> {
+    let wanted = grade_spelling(id);
+    // Family names point to their grades.
+    let family = [
+        ("neodymium", MagnetFamily::Ndfeb),
+        ("ndfeb", MagnetFamily::Ndfeb),
+        ("neo", MagnetFamily::Ndfeb),
+        ("samarium", MagnetFamily::Smco),
+        ("smco", MagnetFamily::Smco),
+        ("ferrite", MagnetFamily::Ferrite),
+        ("ceramic", MagnetFamily::Ferrite),
+        ("alnico", MagnetFamily::Alnico),
+    ]
+    .into_iter()
+    .find(|(word, _)| wanted.starts_with(word));
+    if let Some((_, family)) = family {
+        let rows: Vec<&'static str> = GRADES
+            .iter()
+            .filter(|g| g.family == family)
+            .map(|g| g.id)
+            .collect();
+        if !rows.is_empty() && rows.len() <= 3 {
+            return rows;
+        }
+        if family == MagnetFamily::Ndfeb {
+            return vec!["N35", "N42", "N52"];
+        }
+    }
+    nearest(&wanted, GRADES.iter().map(|g| (g.id, grade_spelling(g.id))))
+}
+
+/// `did you mean 'a', 'b' or 'c'?`; empty for no suggestion.
+fn did_you_mean(ids: &[&str]) -> String {
+    let quoted: Vec<String> = ids.iter().map(|id| format!("'{id}'")).collect();
+    match quoted.as_slice() {
+        [] => String::new(),
+        [one] => format!("did you mean {one}? "),
+        [first @ .., last] => format!("did you mean {} or {last}? ", first.join(", ")),
+    }
+}
+
+/// The message for an unknown `tube.material`, with the nearest ids.
+pub fn unknown_conductor_message(id: &str) -> String {
+    let hint = did_you_mean(&suggest_conductors(id));
+    format!("unknown material '{id}'; {hint}The ids are listed by GET /v1/materials")
+}
+
+/// The message for an unknown `magnets.grade`, with the nearest ids.
+pub fn unknown_grade_message(id: &str) -> String {
+    let hint = did_you_mean(&suggest_grades(id));
+    format!("unknown grade '{id}'; {hint}The ids are listed by GET /v1/materials")
+}
+
+/// The message refusing a ferromagnetic `tube.material`, naming the non-ferrous rows to use
+/// instead (a stainless query gets the austenitic row first).
+pub fn ferromagnetic_message(id: &str) -> String {
+    let mut rows: Vec<&str> = CONDUCTORS.iter().map(|c| c.id).collect();
+    if conductor_spelling(id).contains("stainless") {
+        rows.sort_by_key(|r| !r.starts_with("stainless"));
+    }
+    format!(
+        "'{id}' is ferromagnetic: the model assumes relative permeability 1 and cannot represent \
+         magnetic tubes (attraction, flux guiding, saturation). Choose a non-ferrous row of the \
+         table: {}",
+        rows.join(", ")
+    )
+}
+
+/// The provenance of a row in a customer's words, from its source's tags: `[read]` values
+/// were seen in the named source; `[memory]` and `[est]` values are typical figures that
+/// were not checked against one.
+pub fn provenance_words(source: &str) -> &'static str {
+    if source.contains("[memory") || source.contains("[est") || source.contains("/memory") {
+        "typical handbook value — confirm against your supplier's data sheet"
+    } else {
+        "handbook value from the named standard or data sheet — your supplier's data sheet for \
+         your batch still decides"
+    }
+}
+
+impl MagnetGrade {
+    /// Practical remarks on the grade for a buyer and a designer (coating, brittleness,
+    /// temperature, stacking).
+    pub fn notes(&self) -> &'static str {
+        match self.family {
+            MagnetFamily::Ndfeb if self.max_working_temperature_c > 80.0 => {
+                "High-temperature NdFeB (the letters after the number give the working \
+                 temperature); corrodes unless coated, brittle: snaps together hard."
+            }
+            MagnetFamily::Ndfeb => {
+                "Sintered NdFeB: the strongest common magnets; corrodes unless coated (usually \
+                 nickel), brittle, snaps together hard. Loses about 0.12 % of remanence per \
+                 kelvin: for warm tubes compare with a high-temperature grade."
+            }
+            MagnetFamily::Smco => {
+                "Samarium-cobalt: weaker than NdFeB but steady with temperature and corrosion \
+                 resistant; very brittle, chips easily."
+            }
+            MagnetFamily::Ferrite => {
+                "Hard ferrite: cheap and corrosion proof, but about a third of NdFeB's \
+                 remanence, so braking is roughly ten times weaker for the same size."
+            }
+            MagnetFamily::Alnico => {
+                "AlNiCo: low coercivity; avoid alternating stacks and strong opposing fields, \
+                 which demagnetise it."
+            }
+        }
+    }
 }
 
 impl Conductor {
@@ -572,6 +772,46 @@ mod tests {
         assert_eq!(find_conductor("unobtainium"), Err(LookupError::Unknown));
         assert!(find_conductor("Copper-C12200").is_ok());
         assert!(find_grade("n42").is_some());
+    }
+
+    #[test]
+    fn common_spellings_are_accepted_or_suggested() {
+        assert_eq!(
+            find_conductor("Aluminum 6061_T6").map(|c| c.id),
+            Ok("aluminium-6061-t6")
+        );
+        assert_eq!(find_grade("n-42 sh").map(|g| g.id), Some("N42SH"));
+        // A temper changes conductivity by up to 15 %: suggested, not guessed.
+        assert_eq!(find_conductor("6061"), Err(LookupError::Unknown));
+        assert_eq!(
+            suggest_conductors("aluminum-6061"),
+            vec!["aluminium-6061-t6"]
+        );
+        assert_eq!(suggest_conductors("coper-c12200")[0], "copper-c12200");
+        assert_eq!(suggest_grades("N43"), vec!["N40", "N42", "N45"]);
+        assert_eq!(suggest_grades("samarium"), vec!["SmCo5", "Sm2Co17"]);
+        assert!(suggest_conductors("unobtainium").is_empty());
+        assert_eq!(
+            unknown_conductor_message("6061"),
+            "unknown material '6061'; did you mean 'aluminium-6061-t6'? The ids are listed by \
+             GET /v1/materials"
+        );
+        assert!(ferromagnetic_message("stainless-430").contains("table: stainless-304-annealed, "));
+    }
+
+    #[test]
+    fn table_values_carry_no_float_noise() {
+        let al = find_conductor("aluminium-6063-t5").expect("row");
+        assert_eq!(al.iacs_percent, 55.0);
+        assert_eq!(al.conductivity_s_per_m, 31.9e6);
+        for c in conductors().iter().filter(|c| c.source.contains("%IACS [")) {
+            let text = format!("{} {}", c.conductivity_s_per_m, c.iacs_percent);
+            assert!(text.len() < 16, "{}: {text}", c.id);
+        }
+        for g in magnet_grades() {
+            assert!(!g.notes().is_empty(), "{}", g.id);
+        }
+        assert!(provenance_words(NDFEB_SRC).starts_with("typical handbook value"));
     }
 
     #[test]

@@ -111,7 +111,7 @@ fn field_problem(path: &serde_path_to_error::Path, message: &str) -> FieldProble
     };
     FieldProblem {
         path: text,
-        message: message.to_string(),
+        message: crate::serde_words::reword(message),
     }
 }
 

@@ -15,6 +15,8 @@ pub mod api;
 pub mod cache;
 pub mod config;
 pub mod connections;
+pub mod csv;
+pub mod docs;
 pub mod extract;
 pub mod jobs;
 pub mod middleware;
@@ -23,6 +25,7 @@ pub mod plot;
 pub mod priority;
 pub mod problem;
 pub mod ratelimit;
+pub mod serde_words;
 pub mod state;
 pub mod telemetry;
 
@@ -39,6 +42,7 @@ pub fn router(state: AppState, config: &Config) -> Router {
     let state_ready = state.clone();
     let (routes, _document) = api::api_router().split_for_parts();
     let routes = routes
+        .merge(docs::routes())
         .fallback(not_found)
         .method_not_allowed_fallback(method_not_allowed)
         .with_state(state);
@@ -57,6 +61,7 @@ async fn method_not_allowed() -> ApiError {
 pub fn openapi() -> utoipa::openapi::OpenApi {
     let mut document = api::api_router().into_openapi();
     access::document(&mut document);
+    docs::add_request_examples(&mut document);
     document
 }
 

@@ -1,7 +1,8 @@
 //! Content negotiation: which representation of a job's answer the client asked for.
 //!
 //! The job endpoints answer JSON by default; some also answer as an SVG plot
-//! (`image/svg+xml`) or, for sweeps, as a stream of JSON lines (`application/x-ndjson`). The
+//! (`image/svg+xml`), as a table (`text/csv`, RFC 4180) or, for sweeps, as a stream of JSON
+//! lines (`application/x-ndjson`). The
 //! client chooses with the `Accept` header, read the way RFC 9110 (section 12.5.1) describes:
 //! each media range may carry a weight `q` from 0 to 1; a representation takes the weight of
 //! the most specific range that matches it (`type/subtype` before `type/*` before `*/*`); the
@@ -25,6 +26,8 @@ pub enum Media {
     NdJson,
     /// `image/svg+xml`: a plot of the result.
     Svg,
+    /// `text/csv`: the result's points as a table (RFC 4180), a header row first.
+    Csv,
 }
 
 impl Media {
@@ -34,6 +37,16 @@ impl Media {
             Self::Json => "application/json",
             Self::NdJson => "application/x-ndjson",
             Self::Svg => "image/svg+xml",
+            Self::Csv => "text/csv",
+        }
+    }
+
+    /// The `Content-Type` of an answer: the media type with its parameters (RFC 4180 section
+    /// 3 names `charset` and `header` for `text/csv`).
+    pub fn content_type(self) -> &'static str {
+        match self {
+            Self::Csv => "text/csv; charset=utf-8; header=present",
+            other => other.as_str(),
         }
     }
 
@@ -42,6 +55,7 @@ impl Media {
             Self::Json => ("application", "json"),
             Self::NdJson => ("application", "x-ndjson"),
             Self::Svg => ("image", "svg+xml"),
+            Self::Csv => ("text", "csv"),
         }
     }
 }
@@ -136,7 +150,7 @@ pub fn respond(media: Media, body: impl Into<Body>) -> Response {
     let mut response = body.into().into_response();
     response.headers_mut().insert(
         header::CONTENT_TYPE,
-        HeaderValue::from_static(media.as_str()),
+        HeaderValue::from_static(media.content_type()),
     );
     response
 }
@@ -206,6 +220,17 @@ mod tests {
         assert!(matches!(e, Err(ApiError::NotAcceptable { .. })));
         let e = choose(&accept(&["image/svg+xml;q=0"]), &[Media::Svg]);
         assert!(matches!(e, Err(ApiError::NotAcceptable { .. })));
+    }
+
+    #[test]
+    fn csv_is_offered_where_listed() {
+        let with_csv = [Media::Json, Media::Svg, Media::Csv];
+        assert_eq!(choose(&accept(&["text/csv"]), &with_csv), Ok(Media::Csv));
+        assert_eq!(choose(&accept(&["text/*"]), &with_csv), Ok(Media::Csv));
+        assert_eq!(
+            Media::Csv.content_type(),
+            "text/csv; charset=utf-8; header=present"
+        );
     }
 
     #[test]

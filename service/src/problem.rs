@@ -203,8 +203,9 @@ impl ApiError {
                 Some("not-computable"),
                 "Not computable",
                 format!(
-                    "The model could not compute this input: {d}. Change the design or the \
-                     resolution."
+                    "The model could not compute this input: {}. Change the design or the \
+                     resolution.",
+                    d.trim_end().trim_end_matches('.')
                 ),
                 None,
             ),
@@ -313,10 +314,12 @@ fn summary(lead: &str, errs: &[FieldProblem]) -> String {
     let listed: Vec<String> = errs
         .iter()
         .map(|e| {
+            // The summary ends each item itself: a message's own full stop would double it.
+            let message = e.message.trim_end().trim_end_matches('.');
             if e.path.is_empty() {
-                e.message.clone()
+                message.to_string()
             } else {
-                format!("{}: {}", e.path, e.message)
+                format!("{}: {message}", e.path)
             }
         })
         .collect();

@@ -28,8 +28,18 @@ async fn both_tables_with_sources() {
     for c in conductors {
         let sigma = c["conductivity_s_per_m"].as_f64().expect("sigma");
         let iacs = c["iacs_percent"].as_f64().expect("iacs");
-        // 100 %IACS = 58.0 MS/m (source: IEC 60028, International Annealed Copper Standard).
-        assert!(rel(sigma, iacs * 0.01 * 58.0e6) < 1e-12, "{c}");
+        // 100 %IACS = 58.0 MS/m (source: IEC 60028, International Annealed Copper Standard);
+        // exact where the source gave %IACS, within the rounding of the shown figures (three
+        // significant figures of %IACS) where it gave a resistivity.
+        assert!(rel(sigma, iacs * 0.01 * 58.0e6) < 2.5e-3, "{c}");
+        // No float noise: every figure reads back from a short decimal.
+        assert!(c["iacs_percent"].to_string().len() <= 5, "{c}");
+        assert!(
+            c["provenance"]
+                .as_str()
+                .is_some_and(|p| p.contains("data sheet")),
+            "{c}"
+        );
     }
     let cu = conductors
         .iter()

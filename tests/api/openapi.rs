@@ -142,12 +142,20 @@ async fn the_document_describes_every_route_response_and_field() {
     for (path, media) in [
         (
             "/v1/force-curve",
-            &["application/json", "image/svg+xml"][..],
+            &["application/json", "image/svg+xml", "text/csv"][..],
         ),
-        ("/v1/simulate", &["application/json", "image/svg+xml"][..]),
+        (
+            "/v1/simulate",
+            &["application/json", "image/svg+xml", "text/csv"][..],
+        ),
         (
             "/v1/sweep",
-            &["application/json", "application/x-ndjson", "image/svg+xml"][..],
+            &[
+                "application/json",
+                "application/x-ndjson",
+                "image/svg+xml",
+                "text/csv",
+            ][..],
         ),
         ("/v1/size", &["application/json"][..]),
     ] {

@@ -36,11 +36,15 @@ async fn post_svg(app: &TestApp, path: &str, body: &Value) -> String {
     text
 }
 
-/// What a test reads from an SVG document: its texts and its polylines (stroke colour, points).
+/// What a test reads from an SVG document: its texts, its polylines (stroke colour, dash
+/// pattern, points), its title and description.
 struct Svg {
     texts: Vec<String>,
     polylines: Vec<(String, Vec<(f64, f64)>)>,
+    dashes: Vec<(String, String, usize)>,
     circles: usize,
+    title: String,
+    desc: String,
 }
 
 /// Parses `text` as XML (any well-formedness error fails the test) with an `svg` root.
@@ -49,10 +53,17 @@ fn parse_svg(text: &str) -> Svg {
     let root = doc.root_element();
     assert_eq!(root.tag_name().name(), "svg");
     assert!(root.attribute("width").is_some() && root.attribute("height").is_some());
+    assert!(
+        root.attribute("viewBox").is_some(),
+        "a viewBox lets the plot scale"
+    );
     let mut svg = Svg {
         texts: Vec::new(),
         polylines: Vec::new(),
+        dashes: Vec::new(),
         circles: 0,
+        title: String::new(),
+        desc: String::new(),
     };
     for node in root.descendants().filter(roxmltree::Node::is_element) {
         match node.tag_name().name() {
@@ -60,7 +71,7 @@ fn parse_svg(text: &str) -> Svg {
                 .texts
                 .push(node.text().unwrap_or_default().trim().to_string()),
             "polyline" => {
-                let points = node
+                let points: Vec<(f64, f64)> = node
                     .attribute("points")
                     .unwrap_or_default()
                     .split_whitespace()
@@ -70,9 +81,16 @@ fn parse_svg(text: &str) -> Svg {
                     })
                     .collect();
                 let stroke = node.attribute("stroke").unwrap_or_default().to_string();
+                let dash = node
+                    .attribute("stroke-dasharray")
+                    .unwrap_or_default()
+                    .to_string();
+                svg.dashes.push((stroke.clone(), dash, points.len()));
                 svg.polylines.push((stroke, points));
             }
             "circle" => svg.circles += 1,
+            "title" => svg.title = node.text().unwrap_or_default().to_string(),
+            "desc" => svg.desc = node.text().unwrap_or_default().to_string(),
             _ => {}
         }
     }
@@ -143,6 +161,21 @@ async fn the_force_curve_plot_is_an_svg_with_titled_axes_and_the_speeds_marked()
     assert!(lines[0].windows(2).all(|w| w[1].0 >= w[0].0));
     // The dot where braking meets the load.
     assert_eq!(svg.circles, 1);
+    // Title and description say what is drawn for which design, with the headline numbers.
+    assert_eq!(svg.title, "Braking force against speed");
+    for words in [
+        "N42",
+        "copper-c12200",
+        "bore 13 mm",
+        "wall 1.5 mm",
+        "terminal speed",
+    ] {
+        assert!(
+            svg.desc.contains(words),
+            "{words} missing from {:?}",
+            svg.desc
+        );
+    }
 }
 
 #[tokio::test]
@@ -174,20 +207,46 @@ async fn the_stroke_plot_has_two_panels_over_time() {
         .expect("exit in the key");
     assert!(rel(number_after(label, "reaches the far end at "), exit) < 0.005);
     assert!(svg.text_starting("enters the tube at ").is_some());
-    // The title says how the run ended (the summary's end reason).
+    // The title says how the run ended with the summary's own time: the run ends at the stop
+    // (by default the far end), so the title's time is the summary's stroke time.
     assert_eq!(stroke["summary"]["end_reason"], "reached_stop");
     let title = svg
-        .text_starting("Stroke through the tube: reached the stop in ")
+        .text_starting("Stroke: reaches the stop at ")
         .unwrap_or_else(|| panic!("{:?}", svg.texts));
-    // The title's time is the summary's stroke time (the run ends at the stop).
     let stroke_time = stroke["summary"]["stroke_time_s"].as_f64().expect("lands");
     assert!(
         rel(
-            number_after(title, "Stroke through the tube: reached the stop in "),
+            number_after(title, "Stroke: reaches the stop at "),
             stroke_time
         ) < 0.005
     );
+    assert!(
+        rel(stroke_time, exit) < 1e-9,
+        "the default stop is the far end"
+    );
     assert_eq!(stroke["summary"]["end_time_s"].as_f64(), Some(stroke_time));
+    assert_eq!(svg.title, title);
+    assert!(svg.desc.contains("N42") && svg.desc.contains("Peak speed"));
+    // Against position: the same two panels over the tube, entry at 0 and the far end at its
+    // length, 300 mm.
+    let response = post_accepting(
+        &app,
+        "/v1/simulate?against=position",
+        "image/svg+xml",
+        &request,
+    )
+    .await;
+    assert_eq!(response.status().as_u16(), 200);
+    let svg = parse_svg(&response.text().await.expect("body"));
+    assert_eq!(
+        svg.texts
+            .iter()
+            .filter(|t| *t == "position of the stack centre [mm]")
+            .count(),
+        2
+    );
+    assert!(svg.data_lines().iter().all(|l| l.len() == 120));
+    assert!(svg.texts.iter().any(|t| t == "300"), "{:?}", svg.texts);
 }
 
 #[tokio::test]
@@ -248,16 +307,19 @@ async fn the_sweep_plot_draws_a_line_per_second_axis_value() {
     });
     let svg = parse_svg(&post_svg(&app, "/v1/sweep", &request).await);
     for title in [
-        "tube wall thickness [m]",
+        "tube wall thickness [mm]",
         "terminal speed [m/s]",
         "peak force [N]",
     ] {
         assert!(svg.has_text(title), "{title} missing: {:?}", svg.texts);
     }
+    // The key in words and display units.
     for value in ["0", "0.05", "0.1"] {
-        let entry = format!("load.payload_mass_kg = {value}");
+        let entry = format!("payload {value} kg");
         assert!(svg.has_text(&entry), "{entry} missing from the key");
     }
+    // The payload leaves the peak force alone: its three lines coincide, and the panel says so.
+    assert!(svg.has_text("all 3 lines coincide here"), "{:?}", svg.texts);
     // Two panels of three lines, five points each.
     let lines = svg.data_lines();
     assert_eq!(lines.len(), 6);
@@ -296,7 +358,7 @@ async fn negotiation_picks_the_representation_and_refuses_the_unknown() {
     );
     for (path, accept) in [
         ("/v1/force-curve", "application/x-ndjson"),
-        ("/v1/simulate", "text/csv"),
+        ("/v1/simulate", "text/html"),
         ("/v1/force-curve", "image/png"),
     ] {
         let body = if path == "/v1/simulate" {
@@ -353,4 +415,65 @@ async fn negotiation_picks_the_representation_and_refuses_the_unknown() {
     .await;
     assert_eq!(crate::helpers::error_paths(&problem), ["vary[0]"]);
     app.assert_healthy().await;
+}
+
+#[tokio::test]
+async fn twelve_sweep_lines_have_twelve_styles_and_a_tile_reads() {
+    let app = spawn_app().await;
+    let payloads: Vec<f64> = (0..12).map(|i| 0.05 * f64::from(i)).collect();
+    let request = json!({
+        "design": sample_design(),
+        "vary": [
+            { "path": "tube.wall_thickness_m", "values": [0.001, 0.002, 0.003] },
+            { "path": "load.payload_mass_kg", "values": payloads }
+        ],
+        "metrics": ["terminal_speed_m_per_s"]
+    });
+    let text = post_svg(&app, "/v1/sweep", &request).await;
+    let svg = parse_svg(&text);
+    // Twelve data lines, each with its own colour and dash pattern together.
+    let lines: Vec<&(String, String, usize)> =
+        svg.dashes.iter().filter(|(_, _, n)| *n > 2).collect();
+    assert_eq!(lines.len(), 12);
+    let styles: std::collections::BTreeSet<(&str, &str)> = lines
+        .iter()
+        .map(|(stroke, dash, _)| (stroke.as_str(), dash.as_str()))
+        .collect();
+    assert_eq!(styles.len(), 12, "{styles:?}");
+    assert!(
+        lines.iter().filter(|l| !l.1.is_empty()).count() >= 6,
+        "dashed lines"
+    );
+    assert!(svg.has_text("payload 0.55 kg"), "{:?}", svg.texts);
+    assert!(svg.title.starts_with("Sweep over tube wall thickness"));
+    assert!(svg.desc.contains("copper-c12200"));
+    // A tile: asked at 400 px wide, the canvas is 400 px and no text is under 9 px.
+    let tile = post_accepting(
+        &app,
+        "/v1/sweep?width_px=400&aspect=1.25",
+        "image/svg+xml",
+        &request,
+    )
+    .await
+    .text()
+    .await
+    .expect("body");
+    let doc = roxmltree::Document::parse(&tile).expect("well-formed");
+    let root = doc.root_element();
+    assert_eq!(root.attribute("width"), Some("400"));
+    let smallest = root
+        .descendants()
+        .filter_map(|n| n.attribute("font-size"))
+        .filter_map(|s| s.parse::<f64>().ok())
+        .fold(f64::INFINITY, f64::min);
+    // 11 px with a little rounding (common practice: about 11 px is the smallest text that
+    // reads on a screen at 1:1).
+    assert!(smallest >= 9.0, "smallest text {smallest} px");
+    // Out-of-range options are named.
+    let problem = expect_problem(
+        post_accepting(&app, "/v1/sweep?width_px=10", "image/svg+xml", &request).await,
+        422,
+    )
+    .await;
+    assert_eq!(crate::helpers::error_paths(&problem), ["width_px"]);
 }

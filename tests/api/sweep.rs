@@ -429,7 +429,7 @@ async fn bad_sweeps_are_refused_naming_the_field() {
     let response = app
         .client
         .post(format!("{}/v1/sweep", app.base))
-        .header("accept", "text/csv")
+        .header("accept", "text/html")
         .json(&wall_sweep(2, &["damping_n_s_per_m"]))
         .send()
         .await

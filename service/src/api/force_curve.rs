@@ -10,11 +10,13 @@
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
-use crate::plot;
+use crate::plot::{self, PlotOptions};
 use crate::problem::{ApiError, FieldProblem, Problem};
 use crate::state::AppState;
 use axum::Json;
+use axum::extract::Query;
 use axum::extract::State;
+use axum::extract::rejection::QueryRejection;
 use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
 use ringdrag_model::metrics::Metric;
@@ -296,15 +298,17 @@ impl ForceCurveResponse {
             as `application/json` (default) the response record; as `image/svg+xml` a plot of \
             braking force against speed on logarithmic axes, with the driving force of \
             the load and the terminal and critical speeds marked (zeros, and values more than \
-            twelve decades below the largest, are not drawn).",
+            twelve decades below the largest, are not drawn); as `text/csv` (RFC 4180) one row \
+            per point under the header `speed_m_per_s,force_n`.",
             content(
                 (ForceCurveResponse = "application/json"),
-                (String = "image/svg+xml")
+                (String = "image/svg+xml"),
+                (String = "text/csv")
             )),
         (status = 400, description = "The body is not well-formed JSON.", body = Problem,
             content_type = "application/problem+json"),
-        (status = 406, description = "The Accept header allows neither application/json nor \
-            image/svg+xml.", body = Problem, content_type = "application/problem+json"),
+        (status = 406, description = "The Accept header allows none of application/json, \
+            image/svg+xml and text/csv.", body = Problem, content_type = "application/problem+json"),
         (status = 413, description = "The body exceeds the service's size limit.", body = Problem,
             content_type = "application/problem+json"),
         (status = 415, description = "The body is not declared as application/json.",
@@ -320,9 +324,11 @@ impl ForceCurveResponse {
 pub async fn compute_force_curve(
     State(state): State<AppState>,
     headers: HeaderMap,
+    query: Result<Query<PlotOptions>, QueryRejection>,
     ApiJson(request): ApiJson<ForceCurveRequest>,
 ) -> Result<Response, ApiError> {
-    let media = negotiate::choose(&headers, &[Media::Json, Media::Svg])?;
+    let media = negotiate::choose(&headers, &[Media::Json, Media::Svg, Media::Csv])?;
+    let plot_options = plot::options_from_query(query)?;
     if media == Media::Svg
         && let Some(speeds) = &request.speeds_m_per_s
         && !speeds.iter().any(|v| *v > 0.0)
@@ -356,7 +362,11 @@ pub async fn compute_force_curve(
             match media {
                 Media::Svg => Ok(negotiate::respond(
                     Media::Svg,
-                    plot::force_curve_svg(&response)?,
+                    plot::force_curve_svg(&response, &spec, &plot_options)?,
+                )),
+                Media::Csv => Ok(negotiate::respond(
+                    Media::Csv,
+                    crate::csv::force_curve_csv(&response),
                 )),
                 _ => Ok(Json(response).into_response()),
             }

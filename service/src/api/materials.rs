@@ -15,9 +15,11 @@ pub struct ConductorRow {
     pub id: String,
     /// Human-readable name with temper.
     pub name: String,
-    /// Electrical conductivity at 20 C, S/m.
+    /// Electrical conductivity at 20 C, S/m (from the source's %IACS figure, or to four
+    /// significant figures where the source gave a resistivity).
     pub conductivity_s_per_m: f64,
-    /// Conductivity in percent of the International Annealed Copper Standard at 20 C.
+    /// Conductivity in percent of the International Annealed Copper Standard at 20 C (the
+    /// source's figure, or to three significant figures where it gave a resistivity).
     pub iacs_percent: f64,
     /// Temperature coefficient of resistivity near 20 C, 1/K.
     pub resistivity_temperature_coefficient_per_k: f64,
@@ -25,8 +27,11 @@ pub struct ConductorRow {
     pub density_kg_per_m3: f64,
     /// Specific heat capacity near room temperature, J/(kg K).
     pub specific_heat_j_per_kg_k: f64,
-    /// Provenance of each value: `[read]` seen in the named source, `[memory]` recalled and not
-    /// verified, `[est]` estimated.
+    /// How far to trust the row, in plain words: a typical handbook value to confirm against
+    /// the supplier's data sheet, or a value read from a named standard or data sheet.
+    pub provenance: String,
+    /// The detailed source of each value: `[read]` seen in the named source, `[memory]`
+    /// recalled and not verified, `[est]` estimated.
     pub source: String,
     /// Practical remarks (temper sensitivity, magnetism after cold work...); may be empty.
     pub notes: String,
@@ -50,8 +55,13 @@ pub struct MagnetGradeRow {
     /// Whether the grade resists demagnetisation by an opposing neighbour in an alternating
     /// stack.
     pub suits_opposed_stacks: bool,
-    /// Provenance of each value, tagged as for conductors.
+    /// How far to trust the row, in plain words (as for conductors).
+    pub provenance: String,
+    /// The detailed source of each value, tagged as for conductors.
     pub source: String,
+    /// Practical remarks for a buyer and a designer (coating, brittleness, temperature,
+    /// stacking).
+    pub notes: String,
 }
 
 /// Response of `GET /v1/materials`.
@@ -69,11 +79,12 @@ impl From<&Conductor> for ConductorRow {
         Self {
             id: c.id.to_string(),
             name: c.name.to_string(),
-            conductivity_s_per_m: c.conductivity_s_per_m,
-            iacs_percent: c.iacs_percent,
+            conductivity_s_per_m: significant(c.conductivity_s_per_m, 4),
+            iacs_percent: significant(c.iacs_percent, 3),
             resistivity_temperature_coefficient_per_k: c.resistivity_temperature_coefficient_per_k,
             density_kg_per_m3: c.density_kg_per_m3,
             specific_heat_j_per_kg_k: c.specific_heat_j_per_kg_k,
+            provenance: materials::provenance_words(c.source).to_string(),
             source: c.source.to_string(),
             notes: c.notes.to_string(),
         }
@@ -90,9 +101,21 @@ impl From<&MagnetGrade> for MagnetGradeRow {
             max_working_temperature_c: g.max_working_temperature_c,
             density_kg_per_m3: g.density_kg_per_m3,
             suits_opposed_stacks: g.suits_opposed_stacks,
+            provenance: materials::provenance_words(g.source).to_string(),
             source: g.source.to_string(),
+            notes: g.notes().to_string(),
         }
     }
+}
+
+/// `v` to `digits` significant figures, as the nearest 64-bit float to that decimal (so that
+/// JSON writes it without a float's noise: 2.39, not 2.3946360153256707). The table's values
+/// are positive and finite; anything else is returned as it is.
+fn significant(v: f64, digits: usize) -> f64 {
+    if !(v.is_finite() && v > 0.0) || digits == 0 {
+        return v;
+    }
+    format!("{v:.*e}", digits - 1).parse().unwrap_or(v)
 }
 
 /// The material tables of the model.
@@ -127,4 +150,25 @@ pub async fn list_materials() -> Response {
         HeaderValue::from_static("public, max-age=3600"),
     );
     response
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn rows_read_as_a_customer_reads_them() {
+        let tables = material_tables();
+        let row = |id: &str| tables.conductors.iter().find(|c| c.id == id).cloned();
+        let al = row("aluminium-6063-t5").expect("row");
+        assert_eq!(al.iacs_percent, 55.0);
+        assert_eq!(al.conductivity_s_per_m, 31_900_000.0);
+        // 72 uOhm cm (source: ASM data sheet) is 1.3889e6 S/m, 2.3946 %IACS.
+        let ss = row("stainless-304-annealed").expect("row");
+        assert_eq!(ss.conductivity_s_per_m, 1_389_000.0);
+        assert_eq!(ss.iacs_percent, 2.39);
+        assert!(al.provenance.contains("data sheet"));
+        assert!(tables.magnet_grades.iter().all(|g| !g.notes.is_empty()));
+        assert_eq!(significant(0.1 + 0.2, 3), 0.3);
+    }
 }

@@ -5,6 +5,7 @@ pub mod force_curve;
 pub mod health;
 pub mod materials;
 pub mod ops;
+pub mod point_metrics;
 pub mod report;
 pub mod select;
 pub mod simulate;
@@ -25,7 +26,9 @@ use utoipa_axum::routes;
         description = "Eddy-current braking of permanent-magnet stacks moving through non-ferrous \
             conducting tubes: steady force-speed curves, stroke simulations, sweeps over design \
             fields and inverse sizing with a safety factor. JSON in and out (force curves, \
-            strokes and sweeps also as SVG plots, sweeps also as a stream of JSON lines), \
+            strokes and sweeps also as SVG plots and CSV tables, sweeps also as a stream of \
+            JSON lines; SVG plots take the query options `width_px` (320 to 2400), `aspect` \
+            (0.5 to 4) and, for strokes, `against=time|position`), \
             SI units, every dimensional field carries its unit in its name. Errors are RFC 9457 \
             problem documents (application/problem+json); validation errors name each field by \
             its dotted path in the request body. Results are engineering estimates from an \

@@ -11,11 +11,13 @@ use crate::api::force_curve::{check_design, check_radial_layers};
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
-use crate::plot;
+use crate::plot::{self, PlotOptions};
 use crate::problem::{ApiError, FieldProblem, Problem};
 use crate::state::AppState;
 use axum::Json;
+use axum::extract::Query;
 use axum::extract::State;
+use axum::extract::rejection::QueryRejection;
 use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
 use ringdrag_model::report::Fidelity;
@@ -411,15 +413,18 @@ impl SimulateResponse {
         (status = 200, description = "The stroke: as `application/json` (default) the summary, \
             time series, cautions and model; as `image/svg+xml` a plot in two panels sharing \
             the time axis, speed above and braking force below, with the moments the stack \
-            enters the tube and reaches its far end marked.",
+            enters the tube and reaches its far end marked; as `text/csv` (RFC 4180) the \
+            series, one row per sample under the header \
+            `time_s,position_m,speed_m_per_s,force_n,power_w`.",
             content(
                 (SimulateResponse = "application/json"),
-                (String = "image/svg+xml")
+                (String = "image/svg+xml"),
+                (String = "text/csv")
             )),
         (status = 400, description = "The body is not well-formed JSON.", body = Problem,
             content_type = "application/problem+json"),
-        (status = 406, description = "The Accept header allows neither application/json nor \
-            image/svg+xml.", body = Problem, content_type = "application/problem+json"),
+        (status = 406, description = "The Accept header allows none of application/json, \
+            image/svg+xml and text/csv.", body = Problem, content_type = "application/problem+json"),
         (status = 413, description = "The body exceeds the service's size limit.", body = Problem,
             content_type = "application/problem+json"),
         (status = 415, description = "The body is not declared as application/json.",
@@ -435,9 +440,12 @@ impl SimulateResponse {
 pub async fn simulate_stroke(
     State(state): State<AppState>,
     headers: HeaderMap,
+    query: Result<Query<PlotOptions>, QueryRejection>,
     ApiJson(request): ApiJson<SimulateRequest>,
 ) -> Result<Response, ApiError> {
-    let media = negotiate::choose(&headers, &[Media::Json, Media::Svg])?;
+    let media = negotiate::choose(&headers, &[Media::Json, Media::Svg, Media::Csv])?;
+    let plot_options = plot::options_from_query(query)?;
+    let spec = request.design.clone();
     let (design, options) = request.validate(&state.limits)?;
     let limits = Arc::clone(&state.limits);
     // The answer is built and, for a plot, drawn inside the job: CPU work stays off the async
@@ -449,7 +457,14 @@ pub async fn simulate_stroke(
             let stroke = ringdrag_model::simulate_stroke(&design, &options, &limits)?;
             let response = SimulateResponse::from_model(stroke)?;
             match media {
-                Media::Svg => Ok(negotiate::respond(Media::Svg, plot::stroke_svg(&response)?)),
+                Media::Svg => Ok(negotiate::respond(
+                    Media::Svg,
+                    plot::stroke_svg(&response, &spec, &plot_options)?,
+                )),
+                Media::Csv => Ok(negotiate::respond(
+                    Media::Csv,
+                    crate::csv::stroke_csv(&response),
+                )),
                 _ => Ok(Json(response).into_response()),
             }
         })

@@ -29,16 +29,19 @@
 //!   the other varied fields (see [`crate::plot::sweep_svg`]).
 
 use crate::api::force_curve::check_design;
+use crate::api::point_metrics::PointMetrics;
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions, field_number};
 use crate::api::simulate::{StartState, check_stop, check_stroke_setup};
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
-use crate::plot::{self, PlotAxis};
+use crate::plot::{self, PlotAxis, PlotOptions};
 use crate::problem::{ApiError, FieldProblem, Problem};
 use crate::state::AppState;
 use axum::Json;
 use axum::body::{Body, Bytes};
+use axum::extract::Query;
 use axum::extract::State;
+use axum::extract::rejection::QueryRejection;
 use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
 use ringdrag_model::designpath;
@@ -357,10 +360,11 @@ pub struct SweepPointDto {
     /// (`magnets.count`) as integers.
     #[serde(serialize_with = "whole_inputs")]
     pub inputs: BTreeMap<String, f64>,
-    /// Each requested metric by name; null where it does not exist (no terminal speed when the
-    /// brake cannot hold the load, no exit time when the stack never exits) or the point
-    /// failed.
-    pub metrics: BTreeMap<String, Option<f64>>,
+    /// Each requested metric by name, in the order asked; null where it does not exist (no
+    /// terminal speed when the brake cannot hold the load, no exit time when the stack never
+    /// exits) or the point failed.
+    #[schema(value_type = BTreeMap<String, Option<f64>>)]
+    pub metrics: PointMetrics,
     /// Why the point failed (for example a magnet wider than the bore at this corner of the
     /// grid), or null.
     pub error: Option<String>,
@@ -391,17 +395,13 @@ fn whole_inputs<S: serde::Serializer>(
     map.end()
 }
 
-impl From<SweepPoint> for SweepPointDto {
-    fn from(p: SweepPoint) -> Self {
+impl SweepPointDto {
+    /// The record of a model point, its metrics in the order `asked`.
+    pub fn in_order(p: SweepPoint, asked: &[Metric]) -> Self {
         Self {
             index: p.index as u64,
+            metrics: PointMetrics::in_order(&p.metrics, asked),
             inputs: p.inputs,
-            // The model reports only finite numbers; anything else would read as "no value".
-            metrics: p
-                .metrics
-                .into_iter()
-                .map(|(k, v)| (k, v.filter(|x| x.is_finite())))
-                .collect(),
             error: p.error,
             error_estimate_relative: p.error_estimate_relative.filter(|x| x.is_finite()),
             caution_kinds: p.cautions.iter().map(|c| c.kind).collect(),
@@ -495,7 +495,11 @@ fn axes_dto(plan: &SweepPlan) -> Vec<SweepAxisDto> {
 impl SweepResponse {
     /// The response record of a finished sweep.
     pub fn new(sweep: &ValidSweep, points: Vec<SweepPoint>) -> Result<Self, ApiError> {
-        let points: Vec<SweepPointDto> = points.into_iter().map(SweepPointDto::from).collect();
+        let asked = sweep.plan.metrics();
+        let points: Vec<SweepPointDto> = points
+            .into_iter()
+            .map(|p| SweepPointDto::in_order(p, asked))
+            .collect();
         let failed = points.iter().filter(|p| p.error.is_some()).count();
         let mut notes = sweep.cautions.clone();
         if failed > 0 {
@@ -546,7 +550,7 @@ fn check_plottable(sweep: &ValidSweep) -> Result<(), ApiError> {
             "vary",
             format!(
                 "an SVG plot draws one line per combination of the second and third axes, at \
-                 most {}; this sweep has {lines}. Ask for JSON or NDJSON, or use fewer values.",
+                 most {}; this sweep has {lines}. Ask for JSON, NDJSON or CSV, or use fewer values",
                 plot::MAX_SWEEP_LINES
             ),
         ));
@@ -716,7 +720,10 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
                 || !stopped.load(Ordering::Relaxed),
                 |point| {
                     let failed = point.error.is_some();
-                    let bytes = ndjson_line(&SweepStreamLine::Point(SweepPointDto::from(point)));
+                    let bytes = ndjson_line(&SweepStreamLine::Point(SweepPointDto::in_order(
+                        point,
+                        plan.metrics(),
+                    )));
                     send(Line::Point { bytes, failed });
                 },
             );
@@ -765,16 +772,19 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
             per point in the order they finish, and an `end` line (complete, points_sent, \
             failed_points, elapsed_s, reason); a stream without an `end` line was cut off. As \
             `image/svg+xml`: each metric against the first axis, one line per combination of \
-            the other axes (at most 12).",
+            the other axes (at most 12). As `text/csv` (RFC 4180): one row per point in grid \
+            order, the columns `index`, the varied fields as the request lists them, the \
+            metrics in the order asked, and `error` (empty fields where a value does not exist).",
             content(
                 (SweepResponse = "application/json"),
                 (SweepStreamLine = "application/x-ndjson"),
-                (String = "image/svg+xml")
+                (String = "image/svg+xml"),
+                (String = "text/csv")
             )),
         (status = 400, description = "The body is not well-formed JSON.", body = Problem,
             content_type = "application/problem+json"),
         (status = 406, description = "The Accept header allows none of application/json, \
-            application/x-ndjson and image/svg+xml.", body = Problem,
+            application/x-ndjson, image/svg+xml and text/csv.", body = Problem,
             content_type = "application/problem+json"),
         (status = 413, description = "The body exceeds the service's size limit.", body = Problem,
             content_type = "application/problem+json"),
@@ -792,9 +802,15 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
 pub async fn sweep_design(
     State(state): State<AppState>,
     headers: HeaderMap,
+    query: Result<Query<PlotOptions>, QueryRejection>,
     ApiJson(request): ApiJson<SweepRequest>,
 ) -> Result<Response, ApiError> {
-    let media = negotiate::choose(&headers, &[Media::Json, Media::NdJson, Media::Svg])?;
+    let plot_options = plot::options_from_query(query)?;
+    let spec = request.design.clone();
+    let media = negotiate::choose(
+        &headers,
+        &[Media::Json, Media::NdJson, Media::Svg, Media::Csv],
+    )?;
     let sweep = request.validate(&state.limits)?;
     if media == Media::NdJson {
         return stream_sweep(&state, sweep).await;
@@ -822,11 +838,21 @@ pub async fn sweep_design(
                         &sweep.requested_axes,
                         &metrics,
                         &response.points,
+                        &spec,
                         &response.model.version,
                         &response.model.method,
+                        &plot_options,
                     )?;
                     Ok(negotiate::respond(Media::Svg, svg))
                 }
+                Media::Csv => Ok(negotiate::respond(
+                    Media::Csv,
+                    crate::csv::sweep_csv(
+                        &sweep.requested_axes,
+                        &response.metrics,
+                        &response.points,
+                    ),
+                )),
                 _ => Ok(Json(response).into_response()),
             }
         })
