@@ -124,9 +124,14 @@ if ! kill -0 "${server_pid}" 2>/dev/null; then
     tail -n 50 "${work}/server.err" >&2
     exit 1
 fi
-if grep -q '"level":"ERROR"\|ERROR' "${work}/server.err"; then
+# tower-http logs every 5xx answer at ERROR. A 503 is a documented answer (a job cancelled at
+# the request deadline, or load shed): counted and shown, not a failure. Any other ERROR is.
+errors="$(grep 'ERROR' "${work}/server.err" | grep -v '503 Service Unavailable' || true)"
+timeouts="$(grep -c '503 Service Unavailable' "${work}/server.err" || true)"
+echo "fuzz: ${timeouts:-0} answers were 503 (deadline or load shedding, documented)"
+if [[ -n "${errors}" ]]; then
     echo "fuzz: the server logged errors:" >&2
-    grep 'ERROR' "${work}/server.err" | head -n 20 >&2
+    echo "${errors}" | head -n 20 >&2
     status=1
 fi
 if [[ ${status} -ne 0 ]]; then
