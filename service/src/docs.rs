@@ -22,7 +22,7 @@ use utoipa::openapi::{OpenApi, RefOr};
 use utoipa_swagger_ui::{Config, SwaggerUi};
 
 /// Request examples of the document: (route, example name, summary, JSON text).
-pub const REQUEST_EXAMPLES: [(&str, &str, &str, &str); 9] = [
+pub const REQUEST_EXAMPLES: [(&str, &str, &str, &str); 7] = [
     (
         "/v1/force-curve",
         "copper-drop",
@@ -64,18 +64,6 @@ pub const REQUEST_EXAMPLES: [(&str, &str, &str, &str); 9] = [
         "wall-for-speed-limit",
         "Invented: the thinnest wall that keeps under a speed limit, cold and hot",
         include_str!("../../examples/size-wall-for-speed-limit.json"),
-    ),
-    (
-        "/v1/size",
-        "magnet-count-for-landing-speed",
-        "Invented: the fewest magnets that land a load softly at its stop, hot and at the worst tolerance corner",
-        include_str!("../../examples/size-magnet-count-for-landing-speed.json"),
-    ),
-    (
-        "/v1/select",
-        "stocked-parts",
-        "Invented: the cheapest damper an invented shop can build from its stocked parts",
-        include_str!("../../examples/select-stocked-parts.json"),
     ),
 ];
 

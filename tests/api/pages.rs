@@ -75,10 +75,13 @@ async fn request_examples_of_the_document_answer_200() {
         else {
             continue;
         };
-        let examples = content
-            .get("examples")
-            .and_then(Value::as_object)
-            .unwrap_or_else(|| panic!("{route} has no request examples"));
+        // The stroke-target sizing and selection examples are left out of the document (each
+        // costs seconds, and the schema fuzzer mutates them into 60 s jobs); they are posted
+        // by tests/api/configurator.rs.
+        let Some(examples) = content.get("examples").and_then(Value::as_object) else {
+            assert_eq!(route, "/v1/select", "{route} has no request examples");
+            continue;
+        };
         assert!(!examples.is_empty(), "{route}");
         for (name, example) in examples {
             let response = app.post_json(route, &example["value"]).await;
