@@ -9,7 +9,7 @@
 use criterion::{Criterion, criterion_group, criterion_main};
 use ringdrag_model::metrics::Metric;
 use ringdrag_model::sweep::{SweepAxis, SweepPlan};
-use ringdrag_model::{DesignSpec, Limits, StrokeOptions};
+use ringdrag_model::{DesignField, DesignSpec, Limits, StrokeOptions};
 
 fn bench(c: &mut Criterion) {
     let base: DesignSpec = serde_json::from_str(
@@ -21,8 +21,8 @@ fn bench(c: &mut Criterion) {
     let plan = SweepPlan::new(
         base,
         vec![
-            SweepAxis::linspace("tube.wall_thickness_m", 0.0005, 0.004, 40),
-            SweepAxis::linspace("magnets.length_m", 0.005, 0.03, 25),
+            SweepAxis::linspace(DesignField::TubeWallThickness, 0.0005, 0.004, 40),
+            SweepAxis::linspace(DesignField::MagnetLength, 0.005, 0.03, 25),
         ],
         vec![Metric::TerminalSpeed],
         StrokeOptions::default(),

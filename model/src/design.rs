@@ -8,13 +8,12 @@
 
 use crate::MU0;
 use crate::caution::{Caution, CautionKind};
+use crate::designfield::{Bounds, DesignField};
 use crate::error::{FieldError, ModelError, show};
-use crate::fieldtext;
 use crate::materials::{self, LookupError};
-use crate::spec::{DesignSpec, Polarity};
+use crate::spec::{DesignSpec, LoadSpec, MagnetSpec, Polarity};
 
-/// Largest number of magnets in one stack.
-pub const MAX_MAGNETS: u32 = 64;
+pub use crate::designfield::MAX_MAGNETS;
 /// Density assumed for magnets given by remanence alone (sintered NdFeB), kg/m^3.
 pub const DEFAULT_MAGNET_DENSITY_KG_PER_M3: f64 = 7500.0;
 
@@ -297,433 +296,465 @@ impl Design {
     }
 
     /// Validates a design object. Every invalid field is reported at once, with its path.
+    ///
+    /// The magnet stack, the tube and the load are parsed apart ([`parse_magnets`],
+    /// [`parse_tube`], [`parse_load`]), then the fit of the stack in the bore is checked; the
+    /// cautions of a valid design are decided afterwards, in one step ([`design_cautions`]).
+    ///
+    /// # Errors
+    /// [`ModelError::Invalid`] listing every offending field by its dotted path.
     pub fn from_spec(spec: &DesignSpec) -> Result<Self, ModelError> {
         let mut errs = Vec::new();
-        let mut cautions = Vec::new();
-        let m = &spec.magnets;
-        let t = &spec.tube;
-        let l = &spec.load;
-
-        let positive = |path: &str, v: f64, max: f64, errs: &mut Vec<FieldError>| {
-            if !v.is_finite() {
-                errs.push(FieldError::new(path, "must be a finite number"));
-            } else if v.is_subnormal() {
-                errs.push(FieldError::new(path, SUBNORMAL));
-            } else if v <= 0.0 {
-                errs.push(FieldError::new(path, "must be greater than zero"));
-            } else if v > max {
-                errs.push(FieldError::new(
-                    path,
-                    fieldtext::out_of_range(path, v, 0.0, max, true),
-                ));
+        let magnets = parse_magnets(&spec.magnets, spec.tube.temperature_c, &mut errs);
+        check_fit(spec, &mut errs);
+        let tube = parse_tube(&spec.tube, &mut errs);
+        let load = parse_load(&spec.load, &mut errs);
+        match (magnets, tube, load) {
+            (Some(magnets), Some(tube), Some(load)) if errs.is_empty() => {
+                let cautions = design_cautions(spec, &magnets, &tube);
+                Ok(Self {
+                    magnets,
+                    tube,
+                    load,
+                    cautions,
+                })
             }
-        };
-        positive(
-            "magnets.outer_diameter_m",
-            m.outer_diameter_m,
-            1.0,
-            &mut errs,
-        );
-        positive("magnets.length_m", m.length_m, 1.0, &mut errs);
-        positive("tube.inner_diameter_m", t.inner_diameter_m, 1.0, &mut errs);
-        positive("tube.wall_thickness_m", t.wall_thickness_m, 0.5, &mut errs);
-        positive("tube.length_m", t.length_m, 20.0, &mut errs);
-        range(
-            &mut errs,
-            "magnets.inner_diameter_m",
-            m.inner_diameter_m,
-            0.0,
-            1.0,
-        );
-        range(
-            &mut errs,
-            "magnets.spacer_length_m",
-            m.spacer_length_m,
-            0.0,
-            1.0,
-        );
-        if m.inner_diameter_m.is_finite()
-            && m.outer_diameter_m.is_finite()
-            && m.inner_diameter_m > 0.0
-            && m.inner_diameter_m >= m.outer_diameter_m
-        {
-            errs.push(FieldError::new(
-                "magnets.inner_diameter_m",
-                "ring bore must be smaller than the outer diameter",
-            ));
+            _ => Err(ModelError::Invalid(errs)),
         }
-        if m.count == 0 || m.count > MAX_MAGNETS {
-            errs.push(FieldError::new(
-                "magnets.count",
-                format!("must be between 1 and {MAX_MAGNETS}"),
-            ));
-        }
-        if m.outer_diameter_m.is_finite()
-            && t.inner_diameter_m.is_finite()
-            && m.outer_diameter_m >= t.inner_diameter_m
-        {
-            errs.push(FieldError::new(
-                "magnets.outer_diameter_m",
-                format!(
-                    "magnet ({} m) must be narrower than the tube bore tube.inner_diameter_m ({} m)",
-                    show(m.outer_diameter_m),
-                    show(t.inner_diameter_m)
-                ),
-            ));
-        }
+    }
 
-        // Magnet material.
-        let grade = match &m.grade {
-            Some(id) => match materials::find_grade(id) {
-                Some(g) => Some(g),
-                None => {
-                    errs.push(FieldError::new(
-                        "magnets.grade",
-                        materials::unknown_grade_message(id),
-                    ));
-                    None
-                }
-            },
-            None => None,
-        };
-        if let Some(br) = m.remanence_t {
-            range(&mut errs, "magnets.remanence_t", br, f64::MIN_POSITIVE, 1.6);
-        } else if m.grade.is_none() {
-            errs.push(FieldError::new(
-                "magnets.grade",
-                "give a grade or magnets.remanence_t",
-            ));
-        }
-        if let Some(rho) = m.density_kg_per_m3 {
-            range(
-                &mut errs,
-                "magnets.density_kg_per_m3",
-                rho,
-                f64::MIN_POSITIVE,
-                30000.0,
-            );
-        }
-        range(
-            &mut errs,
-            "tube.temperature_c",
-            t.temperature_c,
-            -60.0,
-            400.0,
-        );
-        let magnet_temperature_c = m.temperature_c.unwrap_or(t.temperature_c);
-        if let Some(tc) = m.temperature_c {
-            range(&mut errs, "magnets.temperature_c", tc, -60.0, 600.0);
-        }
+    /// The same design with the remanence of every magnet scaled by `factor` (a tolerance
+    /// corner), its cautions kept. The scaled design is checked again: the factor must be a
+    /// finite number above zero (the field's request bound is not re-applied, so a corner may
+    /// lie slightly beyond it, as a real part may).
+    ///
+    /// # Errors
+    /// [`ModelError::Invalid`] naming `magnets.remanence_t` for a factor that is not finite
+    /// and positive.
+    pub fn with_remanence_scaled(&self, factor: f64) -> Result<Self, ModelError> {
+        check_factor(DesignField::MagnetRemanence, factor)?;
+        let mut d = self.clone();
+        d.magnets.remanence_20c_t *= factor;
+        d.magnets.remanence_t *= factor;
+        Ok(d)
+    }
 
-        // Tube material.
-        let conductor = match &t.material {
-            Some(id) => match materials::find_conductor(id) {
-                Ok(c) => Some(c),
-                Err(LookupError::Ferromagnetic) => {
-                    errs.push(FieldError::new(
-                        "tube.material",
-                        materials::ferromagnetic_message(id),
-                    ));
-                    None
-                }
-                Err(LookupError::Unknown) => {
-                    errs.push(FieldError::new(
-                        "tube.material",
-                        materials::unknown_conductor_message(id),
-                    ));
-                    None
-                }
-            },
-            None => None,
-        };
-        if let Some(s) = t.conductivity_s_per_m {
-            range(
-                &mut errs,
-                "tube.conductivity_s_per_m",
-                s,
-                f64::MIN_POSITIVE,
-                7.0e7,
-            );
-        } else if t.material.is_none() {
-            errs.push(FieldError::new(
-                "tube.material",
-                "give a material or tube.conductivity_s_per_m",
-            ));
-        }
-        if let Some(a) = t.resistivity_temperature_coefficient_per_k {
-            range(
-                &mut errs,
-                "tube.resistivity_temperature_coefficient_per_k",
-                a,
-                0.0,
-                0.01,
-            );
-        }
-        if let Some(v) = t.density_kg_per_m3 {
-            range(
-                &mut errs,
-                "tube.density_kg_per_m3",
-                v,
-                f64::MIN_POSITIVE,
-                30000.0,
-            );
-        }
-        if let Some(v) = t.specific_heat_j_per_kg_k {
-            range(
-                &mut errs,
-                "tube.specific_heat_j_per_kg_k",
-                v,
-                f64::MIN_POSITIVE,
-                10000.0,
-            );
-        }
-        if !(t.perforation_fraction.is_finite() && (0.0..0.6).contains(&t.perforation_fraction)) {
-            errs.push(FieldError::new(
-                "tube.perforation_fraction",
-                "must be in [0, 0.6)",
-            ));
-        }
-
-        // Load.
-        range(
-            &mut errs,
-            "load.payload_mass_kg",
-            l.payload_mass_kg,
-            0.0,
-            1.0e5,
-        );
-        range(&mut errs, "load.incline_deg", l.incline_deg, -90.0, 90.0);
-        range(
-            &mut errs,
-            "load.applied_force_n",
-            l.applied_force_n,
-            -1.0e6,
-            1.0e6,
-        );
-        range(
-            &mut errs,
-            "load.friction_coefficient",
-            l.friction_coefficient,
-            0.0,
-            2.0,
-        );
-        range(
-            &mut errs,
-            "load.gravity_m_per_s2",
-            l.gravity_m_per_s2,
-            0.0,
-            100.0,
-        );
-
-        if !errs.is_empty() {
-            return Err(ModelError::Invalid(errs));
-        }
-
-        // Resolve values; every assumption is said.
-        let remanence_20c_t = match (m.remanence_t, grade) {
-            (Some(br), _) => br,
-            (None, Some(g)) => g.remanence_t,
-            (None, None) => {
-                return Err(ModelError::field(
-                    "magnets.grade",
-                    "give a grade or magnets.remanence_t",
-                ));
-            }
-        };
-        let (alpha_br, max_c) = match grade {
-            Some(g) => (
-                g.remanence_temperature_coefficient_per_k,
-                Some(g.max_working_temperature_c),
-            ),
-            None => {
-                if (magnet_temperature_c - 20.0).abs() > 1.0 {
-                    cautions.push(Caution::new(
-                        CautionKind::Assumption,
-                        "No magnet grade named: remanence is taken as temperature-independent and no \
-                         maximum working temperature is checked.",
-                    ));
-                }
-                (0.0, None)
-            }
-        };
-        let density = match (m.density_kg_per_m3, grade) {
-            (Some(d), _) => d,
-            (None, Some(g)) => g.density_kg_per_m3,
-            (None, None) => {
-                cautions.push(Caution::new(
-                    CautionKind::Assumption,
-                    format!(
-                        "No magnet grade or density given: {DEFAULT_MAGNET_DENSITY_KG_PER_M3} kg/m^3 \
-                         (sintered NdFeB) assumed for the magnet mass."
-                    ),
-                ));
-                DEFAULT_MAGNET_DENSITY_KG_PER_M3
-            }
-        };
-        let count = m.count as usize;
-        if count > 1
-            && m.polarity == Polarity::Alternating
-            && let Some(g) = grade.filter(|g| !g.suits_opposed_stacks)
-        {
-            cautions.push(Caution::new(
-                    CautionKind::Demagnetisation,
-                    format!(
-                        "Grade {} has low coercivity: magnets facing like poles will partly demagnetise \
-                         each other; the computed braking is optimistic.",
-                        g.id
-                    ),
-                ));
-        }
-        let magnets = MagnetStack {
-            outer_radius_m: m.outer_diameter_m / 2.0,
-            inner_radius_m: m.inner_diameter_m / 2.0,
-            magnet_length_m: m.length_m,
-            count,
-            polarity: if count > 1 {
-                m.polarity
-            } else {
-                Polarity::Aligned
-            },
-            spacer_length_m: m.spacer_length_m,
-            remanence_20c_t,
-            remanence_temperature_coefficient_per_k: alpha_br,
-            temperature_c: magnet_temperature_c,
-            remanence_t: materials::remanence_at(remanence_20c_t, alpha_br, magnet_temperature_c),
-            density_kg_per_m3: density,
-            grade_id: grade.map(|g| g.id),
-            max_working_temperature_c: max_c,
-        };
-
-        let sigma20 = match (t.conductivity_s_per_m, conductor) {
-            (Some(s), _) => s,
-            (None, Some(c)) => c.conductivity_s_per_m,
-            (None, None) => {
-                return Err(ModelError::field(
-                    "tube.material",
-                    "give a material or tube.conductivity_s_per_m",
-                ));
-            }
-        };
-        let alpha = match (t.resistivity_temperature_coefficient_per_k, conductor) {
-            (Some(a), _) => a,
-            (None, Some(c)) => c.resistivity_temperature_coefficient_per_k,
-            (None, None) => {
-                if (t.temperature_c - 20.0).abs() > 1.0 {
-                    cautions.push(Caution::new(
-                        CautionKind::Assumption,
-                        "No tube material or temperature coefficient given: conductivity is taken as \
-                         temperature-independent.",
-                    ));
-                }
-                0.0
-            }
-        };
-        let tube_density = t
-            .density_kg_per_m3
-            .or(conductor.map(|c| c.density_kg_per_m3));
-        let tube_cp = t
-            .specific_heat_j_per_kg_k
-            .or(conductor.map(|c| c.specific_heat_j_per_kg_k));
-        if tube_density.is_none() || tube_cp.is_none() {
-            cautions.push(Caution::new(
-                CautionKind::Assumption,
-                "Tube density or specific heat unknown (no material named): temperature rise is not \
-                 computed.",
-            ));
-        }
-        if let Some(c) = conductor
-            && c.id.starts_with("stainless")
-        {
-            cautions.push(Caution::new(CautionKind::ModelLimit, c.notes));
-        }
-        let a = t.inner_diameter_m / 2.0;
-        let tube = Tube {
-            inner_radius_m: a,
-            outer_radius_m: a + t.wall_thickness_m,
-            length_m: t.length_m,
-            conductivity_20c_s_per_m: sigma20,
-            resistivity_temperature_coefficient_per_k: alpha,
-            temperature_c: t.temperature_c,
-            perforation_fraction: t.perforation_fraction,
-            conductivity_s_per_m: effective_conductivity(
-                sigma20,
-                alpha,
-                t.temperature_c,
-                t.perforation_fraction,
-            ),
-            density_kg_per_m3: tube_density,
-            specific_heat_j_per_kg_k: tube_cp,
-            material_id: conductor.map(|c| c.id),
-        };
-        if t.perforation_fraction > 0.3 {
-            cautions.push(Caution::new(
-                CautionKind::Perforation,
-                format!(
-                    "Perforation fraction {} exceeds 0.3: the effective-conductivity rule \
-                     sigma (1 - f)/(1 + f) is a dilute-limit result and loses accuracy; it also assumes \
-                     holes much smaller than the magnet.",
-                    t.perforation_fraction
-                ),
-            ));
-        }
-        let clearance = a - magnets.outer_radius_m;
-        if clearance < 0.2e-3 || clearance < 0.02 * magnets.outer_radius_m {
-            cautions.push(Caution::new(
-                CautionKind::Clearance,
-                format!(
-                    "Radial clearance is only {:.3} mm: tolerances, coatings, tube ovality and \
-                     thermal growth may make the magnet rub or jam; braking is very sensitive to it.",
-                    clearance * 1e3
-                ),
-            ));
-        }
-        if t.wall_thickness_m > 2.0 * a {
-            cautions.push(Caution::new(
-                CautionKind::ModelLimit,
-                "Wall thicker than the bore diameter: the outer wall contributes little; check the \
-                 design intent.",
-            ));
-        }
-        push_temperature_cautions(&magnets, &mut cautions);
-        let load = Load {
-            payload_mass_kg: l.payload_mass_kg,
-            incline_rad: l.incline_deg.to_radians(),
-            applied_force_n: l.applied_force_n,
-            friction_coefficient: l.friction_coefficient,
-            gravity_m_per_s2: l.gravity_m_per_s2,
-        };
-        Ok(Self {
-            magnets,
-            tube,
-            load,
-            cautions,
-        })
+    /// The same design with the tube's conductivity scaled by `factor` (a tolerance corner),
+    /// its cautions kept; checked as [`Design::with_remanence_scaled`].
+    ///
+    /// # Errors
+    /// [`ModelError::Invalid`] naming `tube.conductivity_s_per_m` for a factor that is not
+    /// finite and positive.
+    pub fn with_conductivity_scaled(&self, factor: f64) -> Result<Self, ModelError> {
+        check_factor(DesignField::TubeConductivity, factor)?;
+        let mut d = self.clone();
+        d.tube = d.tube.with_conductivity_scaled(factor);
+        Ok(d)
     }
 }
 
-/// Message for a subnormal input: so close to zero that products with it underflow, which
-/// would surface later as a result that cannot be computed instead of a named field.
-const SUBNORMAL: &str = "is a subnormal number (below 2.2e-308 in magnitude), too small to compute \
-                         with; give 0 where zero is allowed, or a physically meaningful value";
+/// A scale factor of a validated property: finite and above zero.
+fn check_factor(field: DesignField, factor: f64) -> Result<(), ModelError> {
+    if factor.is_finite() && factor > 0.0 && !factor.is_subnormal() {
+        Ok(())
+    } else {
+        Err(ModelError::field(
+            field.path(),
+            format!("a scale factor of {} leaves no valid value", show(factor)),
+        ))
+    }
+}
 
-fn range(errs: &mut Vec<FieldError>, path: &str, v: f64, lo: f64, hi: f64) {
-    if !v.is_finite() {
-        errs.push(FieldError::new(path, "must be a finite number"));
-    } else if v.is_subnormal() {
-        errs.push(FieldError::new(path, SUBNORMAL));
-    } else if v < lo || v > hi {
-        let lo_exclusive = lo == f64::MIN_POSITIVE;
+/// Checks every field of `fields` that `spec` gives (optional fields left out are skipped).
+fn check_fields(spec: &DesignSpec, fields: &[DesignField], errs: &mut Vec<FieldError>) {
+    for f in fields {
+        if let Some(v) = f.get(spec) {
+            f.check(v, errs);
+        }
+    }
+}
+
+/// Checks the magnet fields and resolves the grade; the stack, or None when a magnet field is
+/// invalid (its problems are in `errs`). The magnets' temperature defaults to `tube_c`.
+pub fn parse_magnets(
+    m: &MagnetSpec,
+    tube_c: f64,
+    errs: &mut Vec<FieldError>,
+) -> Option<MagnetStack> {
+    let before = errs.len();
+    let probe = DesignSpec {
+        magnets: m.clone(),
+        tube: placeholder_tube(),
+        load: LoadSpec::default(),
+    };
+    use DesignField as F;
+    check_fields(
+        &probe,
+        &[
+            F::MagnetOuterDiameter,
+            F::MagnetLength,
+            F::MagnetInnerDiameter,
+            F::SpacerLength,
+        ],
+        errs,
+    );
+    if m.inner_diameter_m.is_finite()
+        && m.outer_diameter_m.is_finite()
+        && m.inner_diameter_m > 0.0
+        && m.inner_diameter_m >= m.outer_diameter_m
+    {
         errs.push(FieldError::new(
-            path,
-            fieldtext::out_of_range(path, v, lo, hi, lo_exclusive),
+            "magnets.inner_diameter_m",
+            "ring bore must be smaller than the outer diameter",
         ));
     }
+    F::MagnetCount.check(f64::from(m.count), errs);
+    let grade = match &m.grade {
+        Some(id) => {
+            let g = materials::find_grade(id);
+            if g.is_none() {
+                errs.push(FieldError::new(
+                    "magnets.grade",
+                    materials::unknown_grade_message(id),
+                ));
+            }
+            g
+        }
+        None => None,
+    };
+    if m.remanence_t.is_none() && m.grade.is_none() {
+        errs.push(FieldError::new(
+            "magnets.grade",
+            "give a grade or magnets.remanence_t",
+        ));
+    }
+    check_fields(
+        &probe,
+        &[F::MagnetRemanence, F::MagnetDensity, F::MagnetTemperature],
+        errs,
+    );
+    if errs.len() > before {
+        return None;
+    }
+    let remanence_20c_t = m.remanence_t.or(grade.map(|g| g.remanence_t))?;
+    let (alpha_br, max_c) = grade.map_or((0.0, None), |g| {
+        (
+            g.remanence_temperature_coefficient_per_k,
+            Some(g.max_working_temperature_c),
+        )
+    });
+    let temperature_c = m.temperature_c.unwrap_or(tube_c);
+    let count = m.count as usize;
+    Some(MagnetStack {
+        outer_radius_m: m.outer_diameter_m / 2.0,
+        inner_radius_m: m.inner_diameter_m / 2.0,
+        magnet_length_m: m.length_m,
+        count,
+        polarity: if count > 1 {
+            m.polarity
+        } else {
+            Polarity::Aligned
+        },
+        spacer_length_m: m.spacer_length_m,
+        remanence_20c_t,
+        remanence_temperature_coefficient_per_k: alpha_br,
+        temperature_c,
+        remanence_t: materials::remanence_at(remanence_20c_t, alpha_br, temperature_c),
+        density_kg_per_m3: m
+            .density_kg_per_m3
+            .or(grade.map(|g| g.density_kg_per_m3))
+            .unwrap_or(DEFAULT_MAGNET_DENSITY_KG_PER_M3),
+        grade_id: grade.map(|g| g.id),
+        max_working_temperature_c: max_c,
+    })
+}
+
+/// A tube that passes every check, for parsing the magnets alone through the field table.
+fn placeholder_tube() -> crate::spec::TubeSpec {
+    crate::spec::TubeSpec {
+        material: None,
+        conductivity_s_per_m: None,
+        resistivity_temperature_coefficient_per_k: None,
+        density_kg_per_m3: None,
+        specific_heat_j_per_kg_k: None,
+        inner_diameter_m: 1.0,
+        wall_thickness_m: 0.1,
+        length_m: 1.0,
+        temperature_c: 20.0,
+        perforation_fraction: 0.0,
+    }
+}
+
+/// Checks that the magnets fit the bore (a cross-field rule of the stack and the tube).
+fn check_fit(spec: &DesignSpec, errs: &mut Vec<FieldError>) {
+    let (m, t) = (&spec.magnets, &spec.tube);
+    if m.outer_diameter_m.is_finite()
+        && t.inner_diameter_m.is_finite()
+        && m.outer_diameter_m >= t.inner_diameter_m
+    {
+        errs.push(FieldError::new(
+            "magnets.outer_diameter_m",
+            format!(
+                "magnet ({} m) must be narrower than the tube bore tube.inner_diameter_m ({} m)",
+                show(m.outer_diameter_m),
+                show(t.inner_diameter_m)
+            ),
+        ));
+    }
+}
+
+/// Bounds of the tube's specific heat, J/(kg K): above zero, at most 1e4 (water's 4.2e3 is
+/// the highest of common substances; source: CRC Handbook of Chemistry and Physics, 97th ed.,
+/// 2016). Not a sweepable field, so not in the field table.
+const SPECIFIC_HEAT_BOUNDS: Bounds = Bounds::Range {
+    lo: 0.0,
+    hi: 10000.0,
+    lo_exclusive: true,
+};
+
+/// Checks the tube fields and resolves the material; the tube, or None when a tube field is
+/// invalid (its problems are in `errs`).
+pub fn parse_tube(t: &crate::spec::TubeSpec, errs: &mut Vec<FieldError>) -> Option<Tube> {
+    let before = errs.len();
+    let probe = DesignSpec {
+        magnets: placeholder_magnets(),
+        tube: t.clone(),
+        load: LoadSpec::default(),
+    };
+    use DesignField as F;
+    check_fields(
+        &probe,
+        &[
+            F::TubeInnerDiameter,
+            F::TubeWallThickness,
+            F::TubeLength,
+            F::TubeTemperature,
+        ],
+        errs,
+    );
+    let conductor = match &t.material {
+        Some(id) => match materials::find_conductor(id) {
+            Ok(c) => Some(c),
+            Err(LookupError::Ferromagnetic) => {
+                errs.push(FieldError::new(
+                    "tube.material",
+                    materials::ferromagnetic_message(id),
+                ));
+                None
+            }
+            Err(LookupError::Unknown) => {
+                errs.push(FieldError::new(
+                    "tube.material",
+                    materials::unknown_conductor_message(id),
+                ));
+                None
+            }
+        },
+        None => None,
+    };
+    if t.conductivity_s_per_m.is_none() && t.material.is_none() {
+        errs.push(FieldError::new(
+            "tube.material",
+            "give a material or tube.conductivity_s_per_m",
+        ));
+    }
+    check_fields(
+        &probe,
+        &[
+            F::TubeConductivity,
+            F::TubeResistivityCoefficient,
+            F::TubeDensity,
+        ],
+        errs,
+    );
+    if let Some(v) = t.specific_heat_j_per_kg_k {
+        SPECIFIC_HEAT_BOUNDS.check("tube.specific_heat_j_per_kg_k", "J/(kg K)", v, errs);
+    }
+    F::TubePerforation.check(t.perforation_fraction, errs);
+    if errs.len() > before {
+        return None;
+    }
+    let sigma20 = t
+        .conductivity_s_per_m
+        .or(conductor.map(|c| c.conductivity_s_per_m))?;
+    let alpha = t
+        .resistivity_temperature_coefficient_per_k
+        .or(conductor.map(|c| c.resistivity_temperature_coefficient_per_k))
+        .unwrap_or(0.0);
+    let a = t.inner_diameter_m / 2.0;
+    Some(Tube {
+        inner_radius_m: a,
+        outer_radius_m: a + t.wall_thickness_m,
+        length_m: t.length_m,
+        conductivity_20c_s_per_m: sigma20,
+        resistivity_temperature_coefficient_per_k: alpha,
+        temperature_c: t.temperature_c,
+        perforation_fraction: t.perforation_fraction,
+        conductivity_s_per_m: effective_conductivity(
+            sigma20,
+            alpha,
+            t.temperature_c,
+            t.perforation_fraction,
+        ),
+        density_kg_per_m3: t
+            .density_kg_per_m3
+            .or(conductor.map(|c| c.density_kg_per_m3)),
+        specific_heat_j_per_kg_k: t
+            .specific_heat_j_per_kg_k
+            .or(conductor.map(|c| c.specific_heat_j_per_kg_k)),
+        material_id: conductor.map(|c| c.id),
+    })
+}
+
+/// A magnet that passes every check, for parsing the tube alone through the field table.
+fn placeholder_magnets() -> MagnetSpec {
+    MagnetSpec {
+        grade: None,
+        remanence_t: Some(1.0),
+        density_kg_per_m3: None,
+        outer_diameter_m: 0.01,
+        inner_diameter_m: 0.0,
+        length_m: 0.01,
+        count: 1,
+        polarity: Polarity::Aligned,
+        spacer_length_m: 0.0,
+        temperature_c: None,
+    }
+}
+
+/// Checks the load fields; the load, or None when a load field is invalid (its problems are
+/// in `errs`).
+pub fn parse_load(l: &LoadSpec, errs: &mut Vec<FieldError>) -> Option<Load> {
+    let before = errs.len();
+    let probe = DesignSpec {
+        magnets: placeholder_magnets(),
+        tube: placeholder_tube(),
+        load: l.clone(),
+    };
+    use DesignField as F;
+    check_fields(
+        &probe,
+        &[
+            F::PayloadMass,
+            F::Incline,
+            F::AppliedForce,
+            F::Friction,
+            F::Gravity,
+        ],
+        errs,
+    );
+    (errs.len() == before).then(|| Load {
+        payload_mass_kg: l.payload_mass_kg,
+        incline_rad: l.incline_deg.to_radians(),
+        applied_force_n: l.applied_force_n,
+        friction_coefficient: l.friction_coefficient,
+        gravity_m_per_s2: l.gravity_m_per_s2,
+    })
+}
+
+/// The cautions of a valid design, decided once from what was given and what was resolved:
+/// every assumption made for a missing value, and the design rules of [`crate::caution`]'s
+/// thresholds (perforation, clearance, wall, magnet temperature, demagnetisation).
+pub fn design_cautions(spec: &DesignSpec, magnets: &MagnetStack, tube: &Tube) -> Vec<Caution> {
+    use crate::caution::thresholds as th;
+    let (m, t) = (&spec.magnets, &spec.tube);
+    let grade = magnets.grade_id.and_then(materials::find_grade);
+    let conductor = tube
+        .material_id
+        .and_then(|id| materials::find_conductor(id).ok());
+    let mut cautions = Vec::new();
+    let off_reference =
+        |c: f64| (c - th::REFERENCE_TEMPERATURE_C).abs() > th::TEMPERATURE_ASSUMPTION_TOLERANCE_K;
+    if grade.is_none() && off_reference(magnets.temperature_c) {
+        cautions.push(Caution::new(
+            CautionKind::Assumption,
+            "No magnet grade named: remanence is taken as temperature-independent and no \
+             maximum working temperature is checked.",
+        ));
+    }
+    if m.density_kg_per_m3.is_none() && grade.is_none() {
+        cautions.push(Caution::new(
+            CautionKind::Assumption,
+            format!(
+                "No magnet grade or density given: {DEFAULT_MAGNET_DENSITY_KG_PER_M3} kg/m^3 \
+                 (sintered NdFeB) assumed for the magnet mass."
+            ),
+        ));
+    }
+    if magnets.count > 1
+        && magnets.polarity == Polarity::Alternating
+        && let Some(g) = grade.filter(|g| !g.suits_opposed_stacks)
+    {
+        cautions.push(Caution::new(
+            CautionKind::Demagnetisation,
+            format!(
+                "Grade {} has low coercivity: magnets facing like poles will partly demagnetise \
+                 each other; the computed braking is optimistic.",
+                g.id
+            ),
+        ));
+    }
+    if t.resistivity_temperature_coefficient_per_k.is_none()
+        && conductor.is_none()
+        && off_reference(t.temperature_c)
+    {
+        cautions.push(Caution::new(
+            CautionKind::Assumption,
+            "No tube material or temperature coefficient given: conductivity is taken as \
+             temperature-independent.",
+        ));
+    }
+    if tube.density_kg_per_m3.is_none() || tube.specific_heat_j_per_kg_k.is_none() {
+        cautions.push(Caution::new(
+            CautionKind::Assumption,
+            "Tube density or specific heat unknown (no material named): temperature rise is not \
+             computed.",
+        ));
+    }
+    if let Some(c) = conductor
+        && c.id.starts_with("stainless")
+    {
+        cautions.push(Caution::new(CautionKind::ModelLimit, c.notes));
+    }
+    if t.perforation_fraction > th::PERFORATION_FRACTION {
+        cautions.push(Caution::new(
+            CautionKind::Perforation,
+            format!(
+                "Perforation fraction {} exceeds {}: the effective-conductivity rule \
+                 sigma (1 - f)/(1 + f) is a dilute-limit result and loses accuracy; it also assumes \
+                 holes much smaller than the magnet.",
+                t.perforation_fraction,
+                th::PERFORATION_FRACTION
+            ),
+        ));
+    }
+    let clearance = tube.inner_radius_m - magnets.outer_radius_m;
+    if clearance < th::CLEARANCE_M || clearance < th::CLEARANCE_FRACTION * magnets.outer_radius_m {
+        cautions.push(Caution::new(
+            CautionKind::Clearance,
+            format!(
+                "Radial clearance is only {:.3} mm: tolerances, coatings, tube ovality and \
+                 thermal growth may make the magnet rub or jam; braking is very sensitive to it.",
+                clearance * 1e3
+            ),
+        ));
+    }
+    if t.wall_thickness_m > th::WALL_TO_BORE_DIAMETER * 2.0 * tube.inner_radius_m {
+        cautions.push(Caution::new(
+            CautionKind::ModelLimit,
+            "Wall thicker than the bore diameter: the outer wall contributes little; check the \
+             design intent.",
+        ));
+    }
+    push_temperature_cautions(magnets, &mut cautions);
+    cautions
 }
 
 fn push_temperature_cautions(magnets: &MagnetStack, cautions: &mut Vec<Caution>) {
     cautions.retain(|c| c.kind != CautionKind::MagnetTemperature);
     if let (Some(max), Some(id)) = (magnets.max_working_temperature_c, magnets.grade_id) {
         let t = magnets.temperature_c;
+        let margin = crate::caution::thresholds::MAGNET_TEMPERATURE_MARGIN_K;
         if t > max {
             cautions.push(Caution::new(
                 CautionKind::MagnetTemperature,
@@ -732,12 +763,12 @@ fn push_temperature_cautions(magnets: &MagnetStack, cautions: &mut Vec<Caution>)
                      ({max} C): expect irreversible loss of magnetisation; the results overstate braking."
                 ),
             ));
-        } else if t > max - 15.0 {
+        } else if t > max - margin {
             cautions.push(Caution::new(
                 CautionKind::MagnetTemperature,
                 format!(
-                    "Magnet temperature {t} C is within 15 K of the nominal maximum working temperature \
-                     of {id} ({max} C); the limit depends on the magnet's load line."
+                    "Magnet temperature {t} C is within {margin} K of the nominal maximum working \
+                     temperature of {id} ({max} C); the limit depends on the magnet's load line."
                 ),
             ));
         }

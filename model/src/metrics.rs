@@ -10,7 +10,7 @@ use crate::stroke::{StrokeOptions, StrokeSummary};
 use serde::{Deserialize, Serialize};
 
 /// A scalar result that sweeps and sizing can report.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
 #[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
 pub enum Metric {
     /// Steady speed at which braking balances the load, m/s (null on runaway).
@@ -69,59 +69,177 @@ pub enum Metric {
     MaxSpeedBeforeEntry,
 }
 
+/// What a metric needs computed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Source {
+    /// The design record alone (mass, driving force).
+    Design,
+    /// The steady solver.
+    Steady,
+    /// A stroke simulation.
+    Stroke,
+}
+
+/// One row of the metric table.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MetricInfo {
+    /// Name in requests and responses (the serde name).
+    pub name: &'static str,
+    /// Words for an axis title (`terminal speed`).
+    pub words: &'static str,
+    /// Unit as a plot prints it (`m/s`, `1` when dimensionless).
+    pub unit: &'static str,
+    /// What computes it.
+    pub source: Source,
+}
+
+const fn row(
+    name: &'static str,
+    words: &'static str,
+    unit: &'static str,
+    source: Source,
+) -> MetricInfo {
+    MetricInfo {
+        name,
+        words,
+        unit,
+        source,
+    }
+}
+
+/// The metric table, in the order of [`Metric::ALL`].
+static METRICS: [MetricInfo; 18] = [
+    row(
+        "terminal_speed_m_per_s",
+        "terminal speed",
+        "m/s",
+        Source::Steady,
+    ),
+    row("damping_n_s_per_m", "damping", "N s/m", Source::Steady),
+    row("peak_force_n", "peak force", "N", Source::Steady),
+    row(
+        "critical_speed_m_per_s",
+        "critical speed",
+        "m/s",
+        Source::Steady,
+    ),
+    row(
+        "magnetic_reynolds_number",
+        "magnetic reynolds number",
+        "1",
+        Source::Steady,
+    ),
+    row("drive_force_n", "drive force", "N", Source::Design),
+    row("moving_mass_kg", "moving mass", "kg", Source::Design),
+    row("exit_time_s", "exit time", "s", Source::Stroke),
+    row("exit_speed_m_per_s", "exit speed", "m/s", Source::Stroke),
+    row("max_speed_m_per_s", "max speed", "m/s", Source::Stroke),
+    row(
+        "max_deceleration_m_per_s2",
+        "max deceleration",
+        "m/s²",
+        Source::Stroke,
+    ),
+    row(
+        "max_braking_force_n",
+        "max braking force",
+        "N",
+        Source::Stroke,
+    ),
+    row("heat_j", "heat", "J", Source::Stroke),
+    row(
+        "tube_temperature_rise_k",
+        "tube temperature rise",
+        "K",
+        Source::Stroke,
+    ),
+    row(
+        "energy_balance_error",
+        "energy balance error",
+        "1",
+        Source::Stroke,
+    ),
+    row(
+        "landing_speed_m_per_s",
+        "landing speed",
+        "m/s",
+        Source::Stroke,
+    ),
+    row("stroke_time_s", "stroke time", "s", Source::Stroke),
+    row(
+        "max_speed_before_entry_m_per_s",
+        "max speed before entry",
+        "m/s",
+        Source::Stroke,
+    ),
+];
+
 impl Metric {
+    /// Every metric, in table order.
+    pub const ALL: [Self; 18] = [
+        Self::TerminalSpeed,
+        Self::Damping,
+        Self::PeakForce,
+        Self::CriticalSpeed,
+        Self::MagneticReynolds,
+        Self::DriveForce,
+        Self::MovingMass,
+        Self::ExitTime,
+        Self::ExitSpeed,
+        Self::MaxSpeed,
+        Self::MaxDeceleration,
+        Self::MaxBrakingForce,
+        Self::Heat,
+        Self::TubeTemperatureRise,
+        Self::EnergyBalanceError,
+        Self::LandingSpeed,
+        Self::StrokeTime,
+        Self::MaxSpeedBeforeEntry,
+    ];
+
+    /// The metric's row in the table.
+    pub fn info(self) -> &'static MetricInfo {
+        &METRICS[self as usize]
+    }
+
     /// The metric's name in requests and responses.
     pub fn name(self) -> &'static str {
-        match self {
-            Self::TerminalSpeed => "terminal_speed_m_per_s",
-            Self::Damping => "damping_n_s_per_m",
-            Self::PeakForce => "peak_force_n",
-            Self::CriticalSpeed => "critical_speed_m_per_s",
-            Self::MagneticReynolds => "magnetic_reynolds_number",
-            Self::DriveForce => "drive_force_n",
-            Self::MovingMass => "moving_mass_kg",
-            Self::ExitTime => "exit_time_s",
-            Self::ExitSpeed => "exit_speed_m_per_s",
-            Self::MaxSpeed => "max_speed_m_per_s",
-            Self::MaxDeceleration => "max_deceleration_m_per_s2",
-            Self::MaxBrakingForce => "max_braking_force_n",
-            Self::Heat => "heat_j",
-            Self::TubeTemperatureRise => "tube_temperature_rise_k",
-            Self::EnergyBalanceError => "energy_balance_error",
-            Self::LandingSpeed => "landing_speed_m_per_s",
-            Self::StrokeTime => "stroke_time_s",
-            Self::MaxSpeedBeforeEntry => "max_speed_before_entry_m_per_s",
-        }
+        self.info().name
+    }
+
+    /// An axis title: the words and the unit (`terminal speed [m/s]`).
+    pub fn axis_title(self) -> String {
+        format!("{} [{}]", self.info().words, self.info().unit)
     }
 
     /// Whether the metric needs a stroke simulation (otherwise the steady solver serves).
     pub fn needs_stroke(self) -> bool {
-        matches!(
-            self,
-            Self::ExitTime
-                | Self::ExitSpeed
-                | Self::MaxSpeed
-                | Self::MaxDeceleration
-                | Self::MaxBrakingForce
-                | Self::Heat
-                | Self::TubeTemperatureRise
-                | Self::EnergyBalanceError
-                | Self::LandingSpeed
-                | Self::StrokeTime
-                | Self::MaxSpeedBeforeEntry
-        )
+        self.info().source == Source::Stroke
     }
 
     /// Whether the metric needs the steady solver.
     pub fn needs_steady(self) -> bool {
-        matches!(
-            self,
-            Self::TerminalSpeed
-                | Self::Damping
-                | Self::PeakForce
-                | Self::CriticalSpeed
-                | Self::MagneticReynolds
-        )
+        self.info().source == Source::Steady
+    }
+}
+
+/// Metrics order by name, so that maps keyed by them list names alphabetically, as maps keyed
+/// by the names did.
+impl Ord for Metric {
+    fn cmp(&self, other: &Self) -> std::cmp::Ordering {
+        self.name().cmp(other.name())
+    }
+}
+
+impl PartialOrd for Metric {
+    fn partial_cmp(&self, other: &Self) -> Option<std::cmp::Ordering> {
+        Some(self.cmp(other))
+    }
+}
+
+impl std::fmt::Display for Metric {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
     }
 }
 
@@ -306,4 +424,24 @@ fn evaluate_with(
         cautions,
         error_estimate_relative: estimate.filter(|e| e.is_finite()),
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn table_names_are_the_serde_names() {
+        for (i, m) in Metric::ALL.iter().enumerate() {
+            assert_eq!(*m as usize, i, "table order");
+            assert_eq!(
+                serde_json::to_value(m).expect("serialises"),
+                serde_json::Value::String(m.name().to_string())
+            );
+        }
+        assert_eq!(
+            Metric::MaxDeceleration.axis_title(),
+            "max deceleration [m/s²]"
+        );
+    }
 }

@@ -23,7 +23,7 @@ use crate::limits::Limits;
 use crate::metrics::Metric;
 use crate::spec::{DesignSpec, LoadSpec, MagnetSpec, Polarity, TubeSpec};
 use crate::spectral::SteadySolver;
-use crate::targets::{Governing, Judge, SharedSolvers, Verdict};
+use crate::targets::{Achieved, Governing, Judge, Margins, SharedSolvers, TargetKind, Verdict};
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -157,17 +157,17 @@ pub struct Candidate {
     /// Achieved safety factor at the worst condition.
     pub margin: f64,
     /// Per target, at its worst condition.
-    pub margins: BTreeMap<String, f64>,
+    pub margins: Margins,
     /// Per target, over the nominal design cold and hot.
-    pub margins_nominal: BTreeMap<String, f64>,
+    pub margins_nominal: Margins,
     /// Per target, over the tolerance corners (None without tolerances).
-    pub margins_worst_corner: Option<BTreeMap<String, f64>>,
+    pub margins_worst_corner: Option<Margins>,
     /// Where each target is tightest.
-    pub governing: BTreeMap<String, Governing>,
+    pub governing: BTreeMap<TargetKind, Governing>,
     /// Metrics of the nominal design cold.
-    pub achieved_cold: BTreeMap<String, Option<f64>>,
+    pub achieved_cold: Achieved,
     /// Metrics of the nominal design hot.
-    pub achieved_hot: BTreeMap<String, Option<f64>>,
+    pub achieved_hot: Achieved,
     /// Cautions of the design and its results (no standing caution).
     pub cautions: Vec<Caution>,
 }
@@ -458,7 +458,7 @@ impl SelectionPlan {
             if b.metric == Metric::TerminalSpeed {
                 let t = m.terminal_speed_m_per_s.unwrap_or(f64::INFINITY);
                 if t > 0.0 && b.limit / t < sf {
-                    return Some(format!("misses_{}", b.name));
+                    return Some(format!("misses_{}", b.kind));
                 }
                 continue;
             }
@@ -470,13 +470,13 @@ impl SelectionPlan {
                 (Metric::LandingSpeed | Metric::MaxSpeed, true) => {
                     let v = linear_drag_speed(mass, net, c, v0, distance);
                     if v > 0.0 && b.limit / v < sf {
-                        return Some(format!("misses_{}", b.name));
+                        return Some(format!("misses_{}", b.kind));
                     }
                 }
                 (Metric::StrokeTime, false) => {
                     let t = linear_drag_time(mass, net, c, v0, distance);
                     if t.is_finite() && t / b.limit < sf {
-                        return Some(format!("misses_{}", b.name));
+                        return Some(format!("misses_{}", b.kind));
                     }
                 }
                 (Metric::StrokeTime, true) => {
@@ -484,7 +484,7 @@ impl SelectionPlan {
                     let a = net / mass;
                     let t = ((v0 * v0 + 2.0 * a * distance).sqrt() - v0) / a;
                     if t > 0.0 && b.limit / t < sf {
-                        return Some(format!("misses_{}", b.name));
+                        return Some(format!("misses_{}", b.kind));
                     }
                 }
                 _ => {}
@@ -567,8 +567,8 @@ impl SelectionPlan {
                     match self.judge.judge(&spec, Some(&shared), keep_going) {
                         Ok(v) if v.slack >= 0.0 => out.push(self.candidate(c, spec, &design, v)),
                         Ok(v) => reject(
-                            if v.margins.get(v.tightest).is_some_and(|m| *m == 0.0)
-                                && v.hot.get(Metric::TerminalSpeed.name()) == Some(&None)
+                            if v.margins.get(&v.tightest).is_some_and(|m| *m == 0.0)
+                                && v.hot.get(&Metric::TerminalSpeed) == Some(&None)
                             {
                                 "runaway".into()
                             } else {

@@ -10,7 +10,7 @@
 //! fields: to the whole number; their range ends must be whole numbers).
 
 use crate::caution::{Caution, CautionKind, push_unique};
-use crate::designpath;
+use crate::designfield::DesignField;
 use crate::error::{ModelError, show};
 use crate::limits::Limits;
 use crate::report::{Discretisation, Fidelity, ModelInfo};
@@ -21,7 +21,7 @@ use crate::tolerance::Tolerances;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
-pub use crate::targets::{Achieved, Governing, SizeTarget};
+pub use crate::targets::{Achieved, Governing, Margins, SizeTarget, TargetKind};
 
 /// Which end of the feasible values a sizing looks for.
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
@@ -41,8 +41,8 @@ pub enum Seek {
 pub struct SizeRequest {
     /// The design to size; the varied field's value in it is ignored.
     pub base: DesignSpec,
-    /// Dotted path of the field to size.
-    pub path: String,
+    /// The field to size.
+    pub field: DesignField,
     /// Smallest value allowed.
     pub min: f64,
     /// Largest value allowed.
@@ -82,14 +82,14 @@ pub struct SizeResult {
     /// requested safety factor at a tight optimum; below 1 means a target is missed.
     pub margin: f64,
     /// The same ratio per target, at its worst condition.
-    pub margins: BTreeMap<String, f64>,
+    pub margins: Margins,
     /// The ratio per target over the nominal design, cold and hot.
-    pub margins_nominal: BTreeMap<String, f64>,
+    pub margins_nominal: Margins,
     /// The ratio per target over the tolerance corners, cold and hot (None without
     /// tolerances).
-    pub margins_worst_corner: Option<BTreeMap<String, f64>>,
+    pub margins_worst_corner: Option<Margins>,
     /// Where each target is tightest: the corner and the temperature.
-    pub governing: BTreeMap<String, Governing>,
+    pub governing: BTreeMap<TargetKind, Governing>,
     /// Tolerance corners of the reported design that are not valid designs or failed.
     pub failed_corners: Vec<String>,
     /// Which end was sought.
@@ -113,7 +113,7 @@ struct Search<'a> {
 impl Search<'_> {
     fn spec_at(&self, x: f64) -> Result<DesignSpec, ModelError> {
         let mut spec = self.req.base.clone();
-        designpath::set(&mut spec, &self.req.path, x)?;
+        self.req.field.set(&mut spec, x)?;
         Ok(spec)
     }
 
@@ -129,38 +129,33 @@ impl Search<'_> {
 }
 
 /// Sizes one field. See the module documentation for the rules.
+///
+/// # Errors
+/// [`ModelError::Invalid`] for an empty range, a whole-number field with a fractional end, or
+/// invalid targets, safety factor, hot temperature or tolerances; the solvers' errors.
 pub fn size(req: &SizeRequest, limits: &Limits) -> Result<SizeResult, ModelError> {
     size_while(req, limits, &|| true)
 }
 
 /// Like [`size`], but gives up with [`ModelError::Cancelled`] before the next design
 /// evaluation once `keep_going` answers false (a caller whose deadline has passed).
+///
+/// # Errors
+/// As [`size`], and [`ModelError::Cancelled`].
 pub fn size_while(
     req: &SizeRequest,
     limits: &Limits,
     keep_going: &(dyn Fn() -> bool + Sync),
 ) -> Result<SizeResult, ModelError> {
-    designpath::check_path(&req.path, "vary.path")?;
-    let integer = designpath::is_integer_path(&req.path);
+    let integer = req.field.is_whole();
     if !(req.min.is_finite() && req.max.is_finite()) || req.min >= req.max {
         return Err(ModelError::field(
             "vary.max",
             "need finite vary.min < vary.max",
         ));
     }
-    if integer {
-        for (at, v) in [("vary.min", req.min), ("vary.max", req.max)] {
-            if v.fract() != 0.0 {
-                return Err(ModelError::field(
-                    at,
-                    format!(
-                        "{} takes whole numbers only; {} is not one",
-                        designpath::normalise(&req.path),
-                        show(v)
-                    ),
-                ));
-            }
-        }
+    for (at, v) in [("vary.min", req.min), ("vary.max", req.max)] {
+        req.field.check_whole(v, at, "")?;
     }
     let judge = Judge::new(
         &req.target,
@@ -234,7 +229,7 @@ pub fn size_while(
             format!(
                 "Meeting the targets is not monotone in {} over the range: the {} feasible value \
                  is reported; check the neighbourhood.",
-                req.path,
+                req.field,
                 if largest { "largest" } else { "smallest" }
             ),
         ));
@@ -300,7 +295,7 @@ pub fn size_while(
             format!(
                 "No value of {} in [{}, {}] meets the targets with safety factor {} at every \
                  condition; the closest is {} (achieved safety factor {:.3}, {} governing).",
-                req.path,
+                req.field,
                 show(req.min),
                 show(req.max),
                 req.safety_factor,

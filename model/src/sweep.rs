@@ -10,7 +10,7 @@
 
 use crate::caution::Caution;
 use crate::design::Design;
-use crate::designpath;
+use crate::designfield::DesignField;
 use crate::error::ModelError;
 use crate::limits::Limits;
 use crate::metrics::{Evaluation, Metric, SteadyPair, evaluate_estimated};
@@ -25,29 +25,33 @@ use std::sync::{Arc, Mutex};
 /// Most axes in one sweep.
 pub const MAX_AXES: usize = 3;
 
-/// One axis of the grid: a design path and its values.
+/// One axis of the grid: a design field and its values.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SweepAxis {
-    /// Dotted path of the design field.
-    pub path: String,
+    /// The design field.
+    pub field: DesignField,
     /// Values the field takes.
     pub values: Vec<f64>,
 }
 
 impl SweepAxis {
-    /// `steps` evenly spaced values from `from` to `to` inclusive.
-    pub fn linspace(path: &str, from: f64, to: f64, steps: usize) -> Self {
-        let values = if steps <= 1 {
-            vec![from]
-        } else {
-            (0..steps)
-                .map(|i| from + (to - from) * i as f64 / (steps - 1) as f64)
-                .collect()
-        };
+    /// `steps` evenly spaced values of `field` from `from` to `to` inclusive.
+    pub fn linspace(field: DesignField, from: f64, to: f64, steps: usize) -> Self {
         Self {
-            path: path.to_string(),
-            values,
+            field,
+            values: linspace(from, to, steps),
         }
+    }
+}
+
+/// `steps` evenly spaced values from `from` to `to` inclusive (`from` alone for one step).
+pub fn linspace(from: f64, to: f64, steps: usize) -> Vec<f64> {
+    if steps <= 1 {
+        vec![from]
+    } else {
+        (0..steps)
+            .map(|i| from + (to - from) * i as f64 / (steps - 1) as f64)
+            .collect()
     }
 }
 
@@ -58,10 +62,10 @@ pub struct SweepPoint {
     /// Position of the point in the grid (row-major, the last axis fastest).
     pub index: usize,
     /// Value of each varied field at this point, by path.
-    pub inputs: BTreeMap<String, f64>,
+    pub inputs: BTreeMap<DesignField, f64>,
     /// Each requested metric by name; null where it does not exist (e.g. no terminal speed
     /// on runaway) or the point failed.
-    pub metrics: BTreeMap<String, Option<f64>>,
+    pub metrics: BTreeMap<Metric, Option<f64>>,
     /// Why the point failed, or null.
     pub error: Option<String>,
     /// Estimated relative numerical error of the point's metrics (the change between two
@@ -72,15 +76,9 @@ pub struct SweepPoint {
     pub cautions: Vec<Caution>,
 }
 
-/// Fields that leave the steady solver unchanged: the load (it only sets the driving
-/// force), the magnets' density (mass), and the tube's length and thermal data.
-fn is_solver_invariant(path: &str) -> bool {
-    let p = designpath::normalise(path);
-    p.starts_with("load.")
-        || matches!(
-            p,
-            "magnets.density_kg_per_m3" | "tube.length_m" | "tube.density_kg_per_m3"
-        )
+/// Fields that leave the steady solver unchanged (see [`DesignField::changes_solver`]).
+fn is_solver_invariant(field: DesignField) -> bool {
+    !field.changes_solver()
 }
 
 /// A validated sweep, ready to run.
@@ -109,8 +107,12 @@ fn point_cost(metrics: &[Metric], stroke: &StrokeOptions) -> usize {
 }
 
 impl SweepPlan {
-    /// Checks the axes (1 to 3, known numeric paths, distinct, finite values), the metrics
-    /// (at least one, distinct) and the size of the job against `limits`.
+    /// Checks the axes (1 to 3, distinct fields, finite values, whole numbers for whole-number
+    /// fields), the metrics (at least one, distinct) and the size of the job against `limits`.
+    ///
+    /// # Errors
+    /// [`ModelError::Invalid`] naming the axis or metric at fault, [`ModelError::TooLarge`]
+    /// above the work limits.
     pub fn new(
         base: DesignSpec,
         axes: Vec<SweepAxis>,
@@ -126,11 +128,7 @@ impl SweepPlan {
         }
         let mut points = 1usize;
         for (i, axis) in axes.iter().enumerate() {
-            designpath::check_path(&axis.path, &format!("vary[{i}].path"))?;
-            if axes[..i]
-                .iter()
-                .any(|a| designpath::normalise(&a.path) == designpath::normalise(&axis.path))
-            {
+            if axes[..i].iter().any(|a| a.field == axis.field) {
                 return Err(ModelError::field(
                     format!("vary[{i}].path"),
                     "each path may be varied once",
@@ -148,18 +146,12 @@ impl SweepPlan {
                     "must be a finite number",
                 ));
             }
-            if designpath::is_integer_path(&axis.path)
-                && let Some(v) = axis.values.iter().find(|v| v.fract() != 0.0)
-            {
-                return Err(ModelError::field(
-                    format!("vary[{i}]"),
-                    format!(
-                        "{} takes whole numbers only; {} is not one (for a range, choose from, to \
-                         and steps so that every step is whole)",
-                        designpath::normalise(&axis.path),
-                        crate::error::show(*v)
-                    ),
-                ));
+            for v in &axis.values {
+                axis.field.check_whole(
+                    *v,
+                    &format!("vary[{i}]"),
+                    " (for a range, choose from, to and steps so that every step is whole)",
+                )?;
             }
             points = points.saturating_mul(axis.values.len());
         }
@@ -189,10 +181,10 @@ impl SweepPlan {
         )?;
         // Enumerate solver-changing axes first so that load axes vary fastest.
         let mut order: Vec<usize> = (0..axes.len())
-            .filter(|&i| !is_solver_invariant(&axes[i].path))
+            .filter(|&i| !is_solver_invariant(axes[i].field))
             .collect();
         let load: Vec<usize> = (0..axes.len())
-            .filter(|&i| is_solver_invariant(&axes[i].path))
+            .filter(|&i| is_solver_invariant(axes[i].field))
             .collect();
         let group_size = load.iter().map(|&i| axes[i].values.len()).product();
         order.extend(load);
@@ -232,13 +224,13 @@ impl SweepPlan {
         &self.metrics
     }
 
-    fn inputs(&self, index: usize) -> Vec<(&str, f64)> {
+    fn inputs(&self, index: usize) -> Vec<(DesignField, f64)> {
         self.axes
             .iter()
             .zip(&self.strides)
             .map(|(axis, &stride)| {
                 (
-                    axis.path.as_str(),
+                    axis.field,
                     axis.values[(index / stride) % axis.values.len()],
                 )
             })
@@ -247,28 +239,19 @@ impl SweepPlan {
 
     fn design_at(&self, index: usize) -> Result<Design, ModelError> {
         let mut spec = self.base.clone();
-        for (path, value) in self.inputs(index) {
-            designpath::set(&mut spec, path, value)?;
+        for (field, value) in self.inputs(index) {
+            field.set(&mut spec, value)?;
         }
         Design::from_spec(&spec)
     }
 
     fn point(&self, index: usize, values: Result<Evaluation, ModelError>) -> SweepPoint {
-        let inputs = self
-            .inputs(index)
-            .into_iter()
-            .map(|(p, v)| (p.to_string(), v))
-            .collect();
+        let inputs = self.inputs(index).into_iter().collect();
         match values {
             Ok(v) => SweepPoint {
                 index,
                 inputs,
-                metrics: self
-                    .metrics
-                    .iter()
-                    .map(|m| m.name().to_string())
-                    .zip(v.values)
-                    .collect(),
+                metrics: self.metrics.iter().copied().zip(v.values).collect(),
                 error: None,
                 error_estimate_relative: v.error_estimate_relative,
                 cautions: v.cautions,
@@ -276,11 +259,7 @@ impl SweepPlan {
             Err(e) => SweepPoint {
                 index,
                 inputs,
-                metrics: self
-                    .metrics
-                    .iter()
-                    .map(|m| (m.name().to_string(), None))
-                    .collect(),
+                metrics: self.metrics.iter().map(|m| (*m, None)).collect(),
                 error: Some(e.to_string()),
                 error_estimate_relative: None,
                 cautions: Vec::new(),

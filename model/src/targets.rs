@@ -71,11 +71,135 @@ pub struct SizeTarget {
     pub max_deceleration_m_per_s2: Option<f64>,
 }
 
+/// One kind of target: a limit on one metric, upper or lower.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
+#[serde(rename_all = "snake_case")]
+pub enum TargetKind {
+    /// `max_terminal_speed_m_per_s`.
+    MaxTerminalSpeedMPerS,
+    /// `max_landing_speed_m_per_s`.
+    MaxLandingSpeedMPerS,
+    /// `max_speed_m_per_s`.
+    MaxSpeedMPerS,
+    /// `max_stroke_time_s`.
+    MaxStrokeTimeS,
+    /// `min_stroke_time_s`.
+    MinStrokeTimeS,
+    /// `max_exit_time_s`.
+    MaxExitTimeS,
+    /// `min_exit_time_s`.
+    MinExitTimeS,
+    /// `max_deceleration_m_per_s2`.
+    MaxDecelerationMPerS2,
+}
+
+/// The target table: (kind, request name, metric, upper limit), in the order targets are
+/// listed and checked.
+const TARGETS: [(TargetKind, &str, Metric, bool); 8] = [
+    (
+        TargetKind::MaxTerminalSpeedMPerS,
+        "max_terminal_speed_m_per_s",
+        Metric::TerminalSpeed,
+        true,
+    ),
+    (
+        TargetKind::MaxLandingSpeedMPerS,
+        "max_landing_speed_m_per_s",
+        Metric::LandingSpeed,
+        true,
+    ),
+    (
+        TargetKind::MaxSpeedMPerS,
+        "max_speed_m_per_s",
+        Metric::MaxSpeed,
+        true,
+    ),
+    (
+        TargetKind::MaxStrokeTimeS,
+        "max_stroke_time_s",
+        Metric::StrokeTime,
+        true,
+    ),
+    (
+        TargetKind::MinStrokeTimeS,
+        "min_stroke_time_s",
+        Metric::StrokeTime,
+        false,
+    ),
+    (
+        TargetKind::MaxExitTimeS,
+        "max_exit_time_s",
+        Metric::ExitTime,
+        true,
+    ),
+    (
+        TargetKind::MinExitTimeS,
+        "min_exit_time_s",
+        Metric::ExitTime,
+        false,
+    ),
+    (
+        TargetKind::MaxDecelerationMPerS2,
+        "max_deceleration_m_per_s2",
+        Metric::MaxDeceleration,
+        true,
+    ),
+];
+
+impl TargetKind {
+    /// Every kind, in table order.
+    pub const ALL: [Self; 8] = [
+        Self::MaxTerminalSpeedMPerS,
+        Self::MaxLandingSpeedMPerS,
+        Self::MaxSpeedMPerS,
+        Self::MaxStrokeTimeS,
+        Self::MinStrokeTimeS,
+        Self::MaxExitTimeS,
+        Self::MinExitTimeS,
+        Self::MaxDecelerationMPerS2,
+    ];
+
+    /// The target's name in requests and responses.
+    pub fn name(self) -> &'static str {
+        TARGETS[self as usize].1
+    }
+
+    /// The metric it limits.
+    pub fn metric(self) -> Metric {
+        TARGETS[self as usize].2
+    }
+
+    /// Whether it is an upper limit.
+    pub fn upper(self) -> bool {
+        TARGETS[self as usize].3
+    }
+}
+
+/// Target kinds order by name, so that maps keyed by them list names alphabetically.
+impl Ord for TargetKind {
+    fn cmp(&self, other: &Self) -> std::cmp::Ordering {
+        self.name().cmp(other.name())
+    }
+}
+
+impl PartialOrd for TargetKind {
+    fn partial_cmp(&self, other: &Self) -> Option<std::cmp::Ordering> {
+        Some(self.cmp(other))
+    }
+}
+
+impl std::fmt::Display for TargetKind {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
 /// One target in normalised form.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Bound {
-    /// The target's request name.
-    pub name: &'static str,
+    /// Which target.
+    pub kind: TargetKind,
     /// The metric it limits.
     pub metric: Metric,
     /// The limit, in the metric's unit.
@@ -85,68 +209,33 @@ pub struct Bound {
 }
 
 impl SizeTarget {
-    /// The targets given, in a fixed order.
+    /// The limit given for `kind`, if any.
+    pub fn limit(&self, kind: TargetKind) -> Option<f64> {
+        match kind {
+            TargetKind::MaxTerminalSpeedMPerS => self.max_terminal_speed_m_per_s,
+            TargetKind::MaxLandingSpeedMPerS => self.max_landing_speed_m_per_s,
+            TargetKind::MaxSpeedMPerS => self.max_speed_m_per_s,
+            TargetKind::MaxStrokeTimeS => self.max_stroke_time_s,
+            TargetKind::MinStrokeTimeS => self.min_stroke_time_s,
+            TargetKind::MaxExitTimeS => self.max_exit_time_s,
+            TargetKind::MinExitTimeS => self.min_exit_time_s,
+            TargetKind::MaxDecelerationMPerS2 => self.max_deceleration_m_per_s2,
+        }
+    }
+
+    /// The targets given, in table order.
     pub fn bounds(&self) -> Vec<Bound> {
-        [
-            (
-                "max_terminal_speed_m_per_s",
-                Metric::TerminalSpeed,
-                self.max_terminal_speed_m_per_s,
-                true,
-            ),
-            (
-                "max_landing_speed_m_per_s",
-                Metric::LandingSpeed,
-                self.max_landing_speed_m_per_s,
-                true,
-            ),
-            (
-                "max_speed_m_per_s",
-                Metric::MaxSpeed,
-                self.max_speed_m_per_s,
-                true,
-            ),
-            (
-                "max_stroke_time_s",
-                Metric::StrokeTime,
-                self.max_stroke_time_s,
-                true,
-            ),
-            (
-                "min_stroke_time_s",
-                Metric::StrokeTime,
-                self.min_stroke_time_s,
-                false,
-            ),
-            (
-                "max_exit_time_s",
-                Metric::ExitTime,
-                self.max_exit_time_s,
-                true,
-            ),
-            (
-                "min_exit_time_s",
-                Metric::ExitTime,
-                self.min_exit_time_s,
-                false,
-            ),
-            (
-                "max_deceleration_m_per_s2",
-                Metric::MaxDeceleration,
-                self.max_deceleration_m_per_s2,
-                true,
-            ),
-        ]
-        .into_iter()
-        .filter_map(|(name, metric, limit, upper)| {
-            limit.map(|limit| Bound {
-                name,
-                metric,
-                limit,
-                upper,
+        TargetKind::ALL
+            .into_iter()
+            .filter_map(|kind| {
+                self.limit(kind).map(|limit| Bound {
+                    kind,
+                    metric: kind.metric(),
+                    limit,
+                    upper: kind.upper(),
+                })
             })
-        })
-        .collect()
+            .collect()
     }
 
     /// Checks that at least one target is given and every limit is finite and positive,
@@ -159,7 +248,7 @@ impl SizeTarget {
         for b in &bounds {
             if !(b.limit.is_finite() && b.limit > 0.0) {
                 return Err(ModelError::field(
-                    format!("{at}.{}", b.name),
+                    format!("{at}.{}", b.kind.name()),
                     "must be a finite number above zero",
                 ));
             }
@@ -169,7 +258,10 @@ impl SizeTarget {
 }
 
 /// Metrics at one temperature, by name.
-pub type Achieved = BTreeMap<String, Option<f64>>;
+pub type Achieved = BTreeMap<Metric, Option<f64>>;
+
+/// A ratio per target.
+pub type Margins = BTreeMap<TargetKind, f64>;
 
 /// Where a target is tightest.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -190,16 +282,16 @@ pub struct Verdict {
     /// Smallest margin over targets and conditions (the achieved safety factor).
     pub margin: f64,
     /// Each target's margin at its worst condition.
-    pub margins: BTreeMap<String, f64>,
+    pub margins: Margins,
     /// Each target's margin over the nominal design, cold and hot.
-    pub margins_nominal: BTreeMap<String, f64>,
+    pub margins_nominal: Margins,
     /// Each target's margin over the tolerance corners, cold and hot (None without
     /// tolerances).
-    pub margins_worst_corner: Option<BTreeMap<String, f64>>,
+    pub margins_worst_corner: Option<Margins>,
     /// Where each target is tightest.
-    pub governing: BTreeMap<String, Governing>,
+    pub governing: BTreeMap<TargetKind, Governing>,
     /// The target with the smallest margin.
-    pub tightest: &'static str,
+    pub tightest: TargetKind,
     /// Metrics of the nominal design cold.
     pub cold: Achieved,
     /// Metrics of the nominal design hot.
@@ -481,14 +573,10 @@ impl Judge {
                 Ok(v) => self
                     .metrics
                     .iter()
-                    .map(|m| m.name().to_string())
+                    .copied()
                     .zip(v.iter().copied())
                     .collect(),
-                Err(_) => self
-                    .metrics
-                    .iter()
-                    .map(|m| (m.name().to_string(), None))
-                    .collect(),
+                Err(_) => self.metrics.iter().map(|m| (*m, None)).collect(),
             }
         };
         let nominal: Vec<&ConditionResult> =
@@ -537,7 +625,11 @@ impl Judge {
         let mut margins_corner = BTreeMap::new();
         let mut governing = BTreeMap::new();
         let mut margin = f64::INFINITY;
-        let mut tightest = self.bounds.first().map_or("", |b| b.name);
+        // A judge has at least one target (`SizeTarget::check`).
+        let mut tightest = self
+            .bounds
+            .first()
+            .map_or(TargetKind::MaxTerminalSpeedMPerS, |b| b.kind);
         for b in &self.bounds {
             let mut worst = (f64::INFINITY, "nominal".to_string(), false);
             let mut nom = f64::INFINITY;
@@ -553,11 +645,11 @@ impl Judge {
                     worst = (q, r.corner.clone(), r.hot);
                 }
             }
-            margins.insert(b.name.to_string(), worst.0);
-            margins_nominal.insert(b.name.to_string(), nom);
-            margins_corner.insert(b.name.to_string(), corner);
+            margins.insert(b.kind, worst.0);
+            margins_nominal.insert(b.kind, nom);
+            margins_corner.insert(b.kind, corner);
             governing.insert(
-                b.name.to_string(),
+                b.kind,
                 Governing {
                     corner: worst.1,
                     temperature: if worst.2 { "hot" } else { "cold" }.to_string(),
@@ -565,7 +657,7 @@ impl Judge {
             );
             if worst.0 < margin {
                 margin = worst.0;
-                tightest = b.name;
+                tightest = b.kind;
             }
         }
         Ok(Verdict {

@@ -9,6 +9,7 @@
 //! design (a magnet that no longer fits the bore) is reported, not skipped silently.
 
 use crate::design::Design;
+use crate::designfield::DesignField;
 use crate::error::ModelError;
 use crate::limits::Limits;
 use crate::metrics::{Metric, evaluate};
@@ -66,27 +67,91 @@ pub struct ToleranceBands {
     pub failed_corners: Vec<String>,
 }
 
+/// How a tolerance moves a design: a relative change of a material property, or an absolute
+/// change of a design field.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Perturbation {
+    /// Remanence scaled by 1 +- the tolerance.
+    RemanenceFraction,
+    /// Tube conductivity scaled by 1 +- the tolerance.
+    ConductivityFraction,
+    /// A design field moved by +- the tolerance, in the field's unit.
+    Field(DesignField),
+}
+
+/// One tolerance of [`Tolerances`]: its request name, its corner label, its largest value and
+/// what it moves.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ToleranceKind {
+    /// Field name under `tolerances`.
+    pub name: &'static str,
+    /// Word in a corner label (`wall-`).
+    pub label: &'static str,
+    /// Largest tolerance accepted.
+    pub max: f64,
+    /// What it moves.
+    pub moves: Perturbation,
+}
+
+/// The tolerances, in the order of corner labels.
+pub const TOLERANCE_KINDS: [ToleranceKind; 5] = [
+    ToleranceKind {
+        name: "remanence_fraction",
+        label: "remanence",
+        max: 0.5,
+        moves: Perturbation::RemanenceFraction,
+    },
+    ToleranceKind {
+        name: "conductivity_fraction",
+        label: "conductivity",
+        max: 0.5,
+        moves: Perturbation::ConductivityFraction,
+    },
+    ToleranceKind {
+        name: "magnet_outer_diameter_m",
+        label: "magnet_diameter",
+        max: 0.01,
+        moves: Perturbation::Field(DesignField::MagnetOuterDiameter),
+    },
+    ToleranceKind {
+        name: "tube_inner_diameter_m",
+        label: "bore",
+        max: 0.01,
+        moves: Perturbation::Field(DesignField::TubeInnerDiameter),
+    },
+    ToleranceKind {
+        name: "wall_thickness_m",
+        label: "wall",
+        max: 0.01,
+        moves: Perturbation::Field(DesignField::TubeWallThickness),
+    },
+];
+
 impl Tolerances {
+    /// The value given for `kind`, if any.
+    pub fn value(&self, kind: &ToleranceKind) -> Option<f64> {
+        match kind.moves {
+            Perturbation::RemanenceFraction => self.remanence_fraction,
+            Perturbation::ConductivityFraction => self.conductivity_fraction,
+            Perturbation::Field(DesignField::MagnetOuterDiameter) => self.magnet_outer_diameter_m,
+            Perturbation::Field(DesignField::TubeInnerDiameter) => self.tube_inner_diameter_m,
+            Perturbation::Field(DesignField::TubeWallThickness) => self.wall_thickness_m,
+            Perturbation::Field(_) => None,
+        }
+    }
+
     /// Validates ranges, naming fields under `at` (e.g. `tolerances`).
+    ///
+    /// # Errors
+    /// [`ModelError::Invalid`] naming the first tolerance outside 0 to its largest value.
     pub fn check(&self, at: &str) -> Result<(), ModelError> {
-        let fields = [
-            ("remanence_fraction", self.remanence_fraction, 0.5),
-            ("conductivity_fraction", self.conductivity_fraction, 0.5),
-            (
-                "magnet_outer_diameter_m",
-                self.magnet_outer_diameter_m,
-                0.01,
-            ),
-            ("tube_inner_diameter_m", self.tube_inner_diameter_m, 0.01),
-            ("wall_thickness_m", self.wall_thickness_m, 0.01),
-        ];
-        for (name, v, max) in fields {
-            if let Some(v) = v
-                && !(v.is_finite() && (0.0..=max).contains(&v))
+        for kind in &TOLERANCE_KINDS {
+            if let Some(v) = self.value(kind)
+                && !(v.is_finite() && (0.0..=kind.max).contains(&v))
             {
                 return Err(ModelError::field(
-                    format!("{at}.{name}"),
-                    format!("must be between 0 and {max}"),
+                    format!("{at}.{}", kind.name),
+                    format!("must be between 0 and {}", kind.max),
                 ));
             }
         }
@@ -98,56 +163,44 @@ impl Tolerances {
         self.active().len()
     }
 
-    fn active(&self) -> Vec<(usize, f64)> {
-        [
-            self.remanence_fraction,
-            self.conductivity_fraction,
-            self.magnet_outer_diameter_m,
-            self.tube_inner_diameter_m,
-            self.wall_thickness_m,
-        ]
-        .iter()
-        .enumerate()
-        .filter_map(|(i, v)| v.filter(|x| *x > 0.0).map(|x| (i, x)))
-        .collect()
+    fn active(&self) -> Vec<(&'static ToleranceKind, f64)> {
+        TOLERANCE_KINDS
+            .iter()
+            .filter_map(|k| self.value(k).filter(|x| *x > 0.0).map(|x| (k, x)))
+            .collect()
     }
 
-    /// The corner designs: every combination of low and high ends.
+    /// The corner designs: every combination of low and high ends. Field tolerances move the
+    /// design object, which is then validated; material tolerances scale the validated design
+    /// through its own checked methods.
     pub fn corners(&self, spec: &DesignSpec) -> Vec<(String, Result<Design, ModelError>)> {
         let active = self.active();
-        let names = [
-            "remanence",
-            "conductivity",
-            "magnet_diameter",
-            "bore",
-            "wall",
-        ];
         (0..1usize << active.len())
             .map(|mask| {
                 let mut s = spec.clone();
                 let mut label = Vec::new();
                 let mut factors = (1.0, 1.0);
-                for (bit, &(which, tol)) in active.iter().enumerate() {
+                let mut moved = Ok(());
+                for (bit, &(kind, tol)) in active.iter().enumerate() {
                     let sign = if mask >> bit & 1 == 1 { 1.0 } else { -1.0 };
                     label.push(format!(
                         "{}{}",
-                        names[which],
+                        kind.label,
                         if sign > 0.0 { "+" } else { "-" }
                     ));
-                    match which {
-                        0 => factors.0 = 1.0 + sign * tol,
-                        1 => factors.1 = 1.0 + sign * tol,
-                        2 => s.magnets.outer_diameter_m += sign * tol,
-                        3 => s.tube.inner_diameter_m += sign * tol,
-                        _ => s.tube.wall_thickness_m += sign * tol,
+                    match kind.moves {
+                        Perturbation::RemanenceFraction => factors.0 = 1.0 + sign * tol,
+                        Perturbation::ConductivityFraction => factors.1 = 1.0 + sign * tol,
+                        Perturbation::Field(f) => {
+                            let v = f.get(&s).unwrap_or(0.0) + sign * tol;
+                            moved = moved.and(f.set(&mut s, v));
+                        }
                     }
                 }
-                let design = Design::from_spec(&s).map(|mut d| {
-                    d.magnets.remanence_20c_t *= factors.0;
-                    d.magnets.remanence_t *= factors.0;
-                    d.tube = d.tube.with_conductivity_scaled(factors.1);
-                    d
-                });
+                let design = moved
+                    .and_then(|()| Design::from_spec(&s))
+                    .and_then(|d| d.with_remanence_scaled(factors.0))
+                    .and_then(|d| d.with_conductivity_scaled(factors.1));
                 (label.join(" "), design)
             })
             .collect()
@@ -155,6 +208,10 @@ impl Tolerances {
 }
 
 /// Evaluates `metrics` at every corner and returns the bands.
+///
+/// # Errors
+/// [`ModelError::Invalid`] for tolerances out of range, [`ModelError::Cancelled`] when the
+/// job's token fires; a corner that fails is listed, not an error.
 pub fn bands(
     spec: &DesignSpec,
     tolerances: &Tolerances,

@@ -369,6 +369,7 @@ fn resolution_follows_the_gap_the_wall_and_the_skin_depth() {
 
 #[test]
 fn sweeps_and_sizing_carry_the_estimate_of_their_numbers() {
+    use ringdrag_model::DesignField;
     use ringdrag_model::metrics::Metric;
     use ringdrag_model::sizing::{SizeRequest, SizeTarget, size};
     use ringdrag_model::sweep::{SweepAxis, SweepPlan};
@@ -384,7 +385,7 @@ fn sweeps_and_sizing_carry_the_estimate_of_their_numbers() {
     let plan = SweepPlan::new(
         base.clone(),
         vec![SweepAxis::linspace(
-            "tube.wall_thickness_m",
+            DesignField::TubeWallThickness,
             0.001,
             0.004,
             3,
@@ -396,12 +397,9 @@ fn sweeps_and_sizing_carry_the_estimate_of_their_numbers() {
     .expect("plan");
     for p in plan.run_collect() {
         let mut spec = base.clone();
-        ringdrag_model::designpath::set(
-            &mut spec,
-            "tube.wall_thickness_m",
-            p.inputs["tube.wall_thickness_m"],
-        )
-        .expect("set");
+        DesignField::TubeWallThickness
+            .set(&mut spec, p.inputs[&DesignField::TubeWallThickness])
+            .expect("set");
         let d = Design::from_spec(&spec).expect("valid");
         let fc = force_curve(&d, &ForceCurveOptions::default(), &Limits::default()).expect("fc");
         // The sweep point's estimate is the force curve's for the same design (source: the
@@ -413,7 +411,7 @@ fn sweeps_and_sizing_carry_the_estimate_of_their_numbers() {
     let r = size(
         &SizeRequest {
             base,
-            path: "tube.wall_thickness_m".into(),
+            field: DesignField::TubeWallThickness,
             min: 0.0005,
             max: 0.006,
             target: SizeTarget {

@@ -14,7 +14,7 @@ use ringdrag_model::forcecurve::ForceCurveOptions;
 use ringdrag_model::report::Fidelity;
 use ringdrag_model::sizing::{Seek, SizeRequest, SizeTarget, size};
 use ringdrag_model::stroke::StrokeOptions;
-use ringdrag_model::{Design, DesignSpec, Limits, ModelError};
+use ringdrag_model::{Design, DesignField, DesignSpec, Limits, ModelError};
 use std::sync::Mutex;
 use std::time::{Duration, Instant};
 
@@ -287,7 +287,7 @@ fn sizing_up_to_the_bore_is_bounded() {
     let base = spec(design(0.012, 0.02, 1, 0.0, 0.013, 0.0015, 0.3));
     let req = SizeRequest {
         base,
-        path: "magnets.outer_diameter_m".into(),
+        field: DesignField::MagnetOuterDiameter,
         min: 0.005,
         max: 0.012999999999,
         target: SizeTarget {

@@ -1,11 +1,12 @@
 //! Sweeps, inverse sizing and tolerance bands, each checked against separate direct solves.
 
+use ringdrag_model::designfield::DesignField;
 use ringdrag_model::metrics::Metric;
-use ringdrag_model::sizing::{Seek, SizeRequest, SizeTarget, size};
+use ringdrag_model::sizing::{Seek, SizeRequest, SizeTarget, TargetKind, size};
 use ringdrag_model::spectral::{SteadySolver, force_curve};
 use ringdrag_model::sweep::{SweepAxis, SweepPlan};
 use ringdrag_model::tolerance::{Tolerances, bands};
-use ringdrag_model::{Design, DesignSpec, ForceCurveOptions, Limits, StrokeOptions, designpath};
+use ringdrag_model::{Design, DesignSpec, ForceCurveOptions, Limits, StrokeOptions};
 
 /// Invented scenario: a 15 mm N42 stack of two in an aluminium 6063 tube carrying a 0.2 kg
 /// payload down a vertical shaft.
@@ -30,7 +31,7 @@ fn wall_sweep_is_monotone_and_matches_direct_calls() {
     let plan = SweepPlan::new(
         base(),
         vec![SweepAxis::linspace(
-            "tube.wall_thickness_m",
+            DesignField::TubeWallThickness,
             0.0005,
             0.004,
             8,
@@ -45,16 +46,13 @@ fn wall_sweep_is_monotone_and_matches_direct_calls() {
     let mut last = f64::INFINITY;
     for p in &points {
         assert!(p.error.is_none());
-        let v = p.metrics["terminal_speed_m_per_s"].expect("held");
+        let v = p.metrics[&Metric::TerminalSpeed].expect("held");
         assert!(v < last, "terminal speed must fall as the wall thickens");
         last = v;
         let mut spec = base();
-        designpath::set(
-            &mut spec,
-            "tube.wall_thickness_m",
-            p.inputs["tube.wall_thickness_m"],
-        )
-        .expect("set");
+        DesignField::TubeWallThickness
+            .set(&mut spec, p.inputs[&DesignField::TubeWallThickness])
+            .expect("set");
         let direct = terminal_of(&spec).expect("held");
         // Same solver, same resolution: agreement to rounding (common practice).
         assert!((v / direct - 1.0).abs() < 1e-9, "{v} vs {direct}");
@@ -67,11 +65,11 @@ fn load_axes_reuse_the_solver_and_match_direct_calls() {
         base(),
         vec![
             SweepAxis {
-                path: "load.payload_mass_kg".into(),
+                field: DesignField::PayloadMass,
                 values: vec![0.0, 0.5, 1.0],
             },
             SweepAxis {
-                path: "magnets.length_m".into(),
+                field: DesignField::MagnetLength,
                 values: vec![0.01, 0.02],
             },
         ],
@@ -85,10 +83,10 @@ fn load_axes_reuse_the_solver_and_match_direct_calls() {
     for p in points {
         let mut spec = base();
         for (k, v) in &p.inputs {
-            designpath::set(&mut spec, k, *v).expect("set");
+            k.set(&mut spec, *v).expect("set");
         }
         let direct = terminal_of(&spec).expect("held");
-        let got = p.metrics["terminal_speed_m_per_s"].expect("held");
+        let got = p.metrics[&Metric::TerminalSpeed].expect("held");
         assert!((got / direct - 1.0).abs() < 1e-9);
     }
 }
@@ -98,7 +96,7 @@ fn invalid_points_carry_their_error() {
     let plan = SweepPlan::new(
         base(),
         vec![SweepAxis {
-            path: "magnets.outer_diameter_m".into(),
+            field: DesignField::MagnetOuterDiameter,
             values: vec![0.012, 0.020],
         }],
         vec![Metric::Damping],
@@ -124,7 +122,7 @@ fn sweep_limits_are_enforced() {
     let r = SweepPlan::new(
         base(),
         vec![SweepAxis::linspace(
-            "tube.wall_thickness_m",
+            DesignField::TubeWallThickness,
             0.001,
             0.002,
             11,
@@ -134,20 +132,13 @@ fn sweep_limits_are_enforced() {
         limits,
     );
     assert!(r.is_err());
-    let r = SweepPlan::new(
-        base(),
-        vec![SweepAxis::linspace("tube.colour", 0.0, 1.0, 2)],
-        vec![Metric::Damping],
-        StrokeOptions::default(),
-        Limits::default(),
-    );
-    assert!(r.is_err());
+    assert!(DesignField::parse("tube.colour", "vary[0].path").is_err());
 }
 
 fn wall_request(hot: Option<f64>) -> SizeRequest {
     SizeRequest {
         base: base(),
-        path: "tube.wall_thickness_m".into(),
+        field: DesignField::TubeWallThickness,
         min: 0.0003,
         max: 0.006,
         target: SizeTarget {
@@ -185,10 +176,7 @@ fn sized_wall_meets_the_target_tightly_when_checked_independently() {
         "hot terminal {v} is not tight against {allowed}"
     );
     assert!((r.margin - 1.25).abs() < 0.01);
-    assert_eq!(
-        designpath::get(&r.design, "tube.wall_thickness_m"),
-        Some(wall)
-    );
+    assert_eq!(DesignField::TubeWallThickness.get(&r.design), Some(wall));
 }
 
 #[test]
@@ -220,7 +208,7 @@ fn infeasible_targets_say_so() {
 #[test]
 fn integer_fields_size_to_whole_numbers() {
     let mut req = wall_request(None);
-    req.path = "magnets.count".into();
+    req.field = DesignField::MagnetCount;
     req.min = 1.0;
     req.max = 12.0;
     req.target.max_terminal_speed_m_per_s = Some(0.3);
@@ -229,7 +217,9 @@ fn integer_fields_size_to_whole_numbers() {
     assert_eq!(n, n.round());
     // One fewer magnet must miss the target (smallest whole number).
     let mut spec = base();
-    designpath::set(&mut spec, "magnets.count", n - 1.0).expect("set");
+    DesignField::MagnetCount
+        .set(&mut spec, n - 1.0)
+        .expect("set");
     let v = terminal_of(&spec);
     assert!(v.is_none_or(|v| v > 0.3 / 1.25));
 }
@@ -271,7 +261,7 @@ fn a_stopped_sweep_skips_the_points_not_yet_started() {
     let plan = SweepPlan::new(
         base(),
         vec![SweepAxis::linspace(
-            "tube.wall_thickness_m",
+            DesignField::TubeWallThickness,
             0.001,
             0.003,
             50,
@@ -308,7 +298,7 @@ fn a_stopped_sizing_reports_cancelled() {
 fn the_rated_payload_is_the_largest_that_meets_the_target() {
     // Largest payload whose hot terminal speed stays under 0.5 / 1.25 m/s.
     let req = SizeRequest {
-        path: "load.payload_mass_kg".into(),
+        field: DesignField::PayloadMass,
         min: 0.0,
         max: 5.0,
         seek: Seek::Largest,
@@ -348,20 +338,22 @@ fn tolerances_decide_feasibility_at_the_worst_corner_hot() {
     assert!(r.feasible);
     // The worst corner needs more wall than the nominal design.
     assert!(r.value > plain.value, "{:?} vs {:?}", r.value, plain.value);
-    let g = &r.governing["max_terminal_speed_m_per_s"];
+    let g = &r.governing[&TargetKind::MaxTerminalSpeedMPerS];
     assert_eq!(g.temperature, "hot");
     assert_eq!(g.corner, "remanence- conductivity-");
-    let corner =
-        r.margins_worst_corner.as_ref().expect("corner margins")["max_terminal_speed_m_per_s"];
-    assert!(corner >= 1.25 - 1e-9 && corner < r.margins_nominal["max_terminal_speed_m_per_s"]);
+    let corner = r.margins_worst_corner.as_ref().expect("corner margins")
+        [&TargetKind::MaxTerminalSpeedMPerS];
+    assert!(
+        corner >= 1.25 - 1e-9 && corner < r.margins_nominal[&TargetKind::MaxTerminalSpeedMPerS]
+    );
     // Independent check: that corner, hot, by a separate force curve (remanence and
     // conductivity scaled as the tolerance says).
     let d = Design::from_spec(&r.design).expect("valid");
-    let mut worst = d.clone();
-    worst.magnets.remanence_20c_t *= 0.98;
-    worst.magnets.remanence_t *= 0.98;
-    worst.tube = worst.tube.with_conductivity_scaled(0.95);
-    let worst = worst.at_temperatures(60.0, 60.0);
+    let worst = d
+        .with_remanence_scaled(0.98)
+        .and_then(|d| d.with_conductivity_scaled(0.95))
+        .expect("scaled")
+        .at_temperatures(60.0, 60.0);
     let v = force_curve(&worst, &ForceCurveOptions::default(), &Limits::default())
         .expect("curve")
         .terminal_speed_m_per_s
@@ -372,7 +364,7 @@ fn tolerances_decide_feasibility_at_the_worst_corner_hot() {
 #[test]
 fn a_non_whole_count_is_refused() {
     let req = SizeRequest {
-        path: "magnets.count".into(),
+        field: DesignField::MagnetCount,
         min: 1.5,
         max: 6.0,
         ..wall_request(None)
@@ -383,7 +375,7 @@ fn a_non_whole_count_is_refused() {
     }
     let plan = SweepPlan::new(
         base(),
-        vec![SweepAxis::linspace("magnets.count", 1.0, 6.0, 4)],
+        vec![SweepAxis::linspace(DesignField::MagnetCount, 1.0, 6.0, 4)],
         vec![Metric::Damping],
         StrokeOptions::default(),
         Limits::default(),

@@ -135,6 +135,7 @@ mod tests {
     #[test]
     fn a_sweep_row_carries_inputs_then_metrics_in_the_asked_order() {
         let axes = [PlotAxis {
+            field: ringdrag_model::DesignField::TubeWallThickness,
             path: "tube.wall_thickness_m".into(),
             values: vec![0.001],
         }];

@@ -16,19 +16,18 @@ pub struct PointMetrics(Vec<(String, Option<f64>)>);
 impl PointMetrics {
     /// The values of `computed`, in the order of `asked`; a metric asked but not computed
     /// (a failed point) is null. Non-finite numbers become null (JSON cannot carry them).
-    pub fn in_order(computed: &BTreeMap<String, Option<f64>>, asked: &[Metric]) -> Self {
+    pub fn in_order(computed: &BTreeMap<Metric, Option<f64>>, asked: &[Metric]) -> Self {
         let mut pairs: Vec<(String, Option<f64>)> = asked
             .iter()
             .map(|m| {
-                let name = m.name();
-                let value = computed.get(name).copied().flatten();
-                (name.to_string(), value.filter(|x| x.is_finite()))
+                let value = computed.get(m).copied().flatten();
+                (m.name().to_string(), value.filter(|x| x.is_finite()))
             })
             .collect();
         // Anything the model computed beyond the asked list is kept, after it.
-        for (name, value) in computed {
-            if !pairs.iter().any(|(n, _)| n == name) {
-                pairs.push((name.clone(), value.filter(|x| x.is_finite())));
+        for (metric, value) in computed {
+            if !asked.contains(metric) {
+                pairs.push((metric.name().to_string(), value.filter(|x| x.is_finite())));
             }
         }
         Self(pairs)
@@ -67,10 +66,10 @@ mod tests {
 
     #[test]
     fn the_asked_order_is_kept_in_json() {
-        let computed: BTreeMap<String, Option<f64>> = [
-            ("damping_n_s_per_m".to_string(), Some(2.0)),
-            ("terminal_speed_m_per_s".to_string(), None),
-            ("heat_j".to_string(), Some(f64::NAN)),
+        let computed: BTreeMap<Metric, Option<f64>> = [
+            (Metric::Damping, Some(2.0)),
+            (Metric::TerminalSpeed, None),
+            (Metric::Heat, Some(f64::NAN)),
         ]
         .into_iter()
         .collect();

@@ -9,6 +9,7 @@ use crate::problem::ApiError;
 use ringdrag_model::report::{Fidelity, ModelInfo};
 use ringdrag_model::{Caution, CautionKind};
 use serde::Serialize;
+use std::collections::BTreeMap;
 use utoipa::ToSchema;
 
 /// One caution with its kind, for programs that filter or highlight cautions.
@@ -132,6 +133,12 @@ pub fn field_number(value: f64, integer: bool) -> Option<serde_json::Number> {
     } else {
         serde_json::Number::from_f64(value)
     }
+}
+
+/// A map keyed by a model name type (a metric, a target) as the contract writes it: keyed
+/// by the names.
+pub fn by_name<K: std::fmt::Display, V>(map: BTreeMap<K, V>) -> BTreeMap<String, V> {
+    map.into_iter().map(|(k, v)| (k.to_string(), v)).collect()
 }
 
 /// Collects the names of output fields whose values are not finite.

@@ -11,7 +11,7 @@
 //! inductive or automatic stroke) must stay within the service's `RINGDRAG_MAX_SWEEP_POINTS`
 //! (default 10000), as for `/v1/sweep`; beyond it the answer is a 422 naming the part lists.
 
-use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
+use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, by_name, cautions};
 use crate::api::simulate::{StartState, check_stop, check_stroke_setup};
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
@@ -182,12 +182,12 @@ impl SelectedDesign {
             moving_mass_kg: check.num("designs[].moving_mass_kg", c.moving_mass_kg),
             design: c.design,
             margin: Some(c.margin).filter(|m| m.is_finite()),
-            margins: finite_map(c.margins),
-            margins_nominal: finite_map(c.margins_nominal),
-            margins_worst_corner: c.margins_worst_corner.map(finite_map),
-            governing: c.governing,
-            achieved_cold: finite_opt_map(c.achieved_cold),
-            achieved_hot: finite_opt_map(c.achieved_hot),
+            margins: finite_map(by_name(c.margins)),
+            margins_nominal: finite_map(by_name(c.margins_nominal)),
+            margins_worst_corner: c.margins_worst_corner.map(|m| finite_map(by_name(m))),
+            governing: by_name(c.governing),
+            achieved_cold: finite_opt_map(by_name(c.achieved_cold)),
+            achieved_hot: finite_opt_map(by_name(c.achieved_hot)),
             cautions: texts.into_iter().skip(skip).collect(),
             caution_details: details.into_iter().skip(skip).collect(),
         }

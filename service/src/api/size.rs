@@ -9,7 +9,7 @@
 //! switches once, and bisects. When `tolerances` are given, the worst-case bands of the
 //! metrics are evaluated at the sized design, hot (`ringdrag_model::tolerance::bands`).
 
-use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions, field_number};
+use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, by_name, cautions, field_number};
 use crate::api::simulate::{StartState, check_stop, check_stroke_setup};
 use crate::api::sweep::check_base_design;
 use crate::extract::ApiJson;
@@ -22,9 +22,9 @@ use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
 use ringdrag_model::metrics::Metric;
 use ringdrag_model::report::Fidelity;
-use ringdrag_model::sizing::{self, Governing, Seek, SizeResult, SizeTarget};
+use ringdrag_model::sizing::{self, Governing, Margins, Seek, SizeResult, SizeTarget};
 use ringdrag_model::tolerance::{self, ToleranceBands, Tolerances};
-use ringdrag_model::{DesignSpec, Limits, ModelError, StrokeOptions, designpath};
+use ringdrag_model::{DesignField, DesignSpec, Limits, ModelError, StrokeOptions};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 use std::sync::Arc;
@@ -131,9 +131,13 @@ impl SizeRequest {
         let mut errors = Vec::new();
         let mut too_large = Vec::new();
         check_base_design(&self.design, &[self.vary.path.as_str()], &mut errors);
-        if let Err(e) = designpath::check_path(&self.vary.path, "vary.path") {
-            push_model_error(e, &mut errors);
-        }
+        let field = match DesignField::parse(&self.vary.path, "vary.path") {
+            Ok(f) => Some(f),
+            Err(e) => {
+                push_model_error(e, &mut errors);
+                None
+            }
+        };
         if self.vary.min.partial_cmp(&self.vary.max) != Some(std::cmp::Ordering::Less) {
             errors.push(FieldProblem {
                 path: "vary.max".into(),
@@ -157,16 +161,12 @@ impl SizeRequest {
         if let Err(e) = self.target.check("target") {
             push_model_error(e, &mut errors);
         }
-        if designpath::is_integer_path(&self.vary.path) {
+        if let Some(f) = field {
             for (at, v) in [("vary.min", self.vary.min), ("vary.max", self.vary.max)] {
-                if v.is_finite() && v.fract() != 0.0 {
-                    errors.push(FieldProblem {
-                        path: at.into(),
-                        message: format!(
-                            "{} takes whole numbers only; {v} is not one",
-                            designpath::normalise(&self.vary.path)
-                        ),
-                    });
+                if v.is_finite()
+                    && let Err(e) = f.check_whole(v, at, "")
+                {
+                    push_model_error(e, &mut errors);
                 }
             }
         }
@@ -183,16 +183,16 @@ impl SizeRequest {
             &mut too_large,
         );
         check_stop(&self.start, self.stop_position_m, &mut errors);
-        if !errors.is_empty() {
+        let Some(field) = field.filter(|_| errors.is_empty()) else {
             return Err(ApiError::Invalid(errors));
-        }
+        };
         if !too_large.is_empty() {
             return Err(ApiError::JobTooLarge(too_large));
         }
         Ok(ValidSize {
             job: sizing::SizeRequest {
                 base: self.design,
-                path: self.vary.path,
+                field,
                 min: self.vary.min,
                 max: self.vary.max,
                 target: self.target,
@@ -298,15 +298,15 @@ impl SizeResponse {
     /// due, and writes unbounded margins as null.
     pub fn from_model(
         result: SizeResult,
-        path: &str,
+        field: DesignField,
         tolerance_bands: Option<ToleranceBands>,
     ) -> Result<Self, ApiError> {
         let mut check = FiniteCheck::default();
         let (cautions, caution_details) = cautions(result.cautions);
-        let integer = designpath::is_integer_path(path);
-        let margin_map = |m: BTreeMap<String, f64>| -> BTreeMap<String, Option<f64>> {
+        let integer = field.is_whole();
+        let margin_map = |m: Margins| -> BTreeMap<String, Option<f64>> {
             m.into_iter()
-                .map(|(k, v)| (k, Some(v).filter(|m| m.is_finite())))
+                .map(|(k, v)| (k.to_string(), Some(v).filter(|m| m.is_finite())))
                 .collect()
         };
         let best_value = field_number(check.num("best_value", result.best_value), integer)
@@ -320,19 +320,15 @@ impl SizeResponse {
             best_value,
             margins_nominal: margin_map(result.margins_nominal),
             margins_worst_corner: result.margins_worst_corner.map(margin_map),
-            governing: result.governing,
+            governing: by_name(result.governing),
             failed_corners: result.failed_corners,
             design: result.design,
             achieved: AchievedDto {
-                cold: finite_map(result.achieved_cold),
-                hot: finite_map(result.achieved_hot),
+                cold: finite_map(by_name(result.achieved_cold)),
+                hot: finite_map(by_name(result.achieved_hot)),
             },
             margin: Some(result.margin).filter(|m| m.is_finite()),
-            margins: result
-                .margins
-                .into_iter()
-                .map(|(k, v)| (k, Some(v).filter(|m| m.is_finite())))
-                .collect(),
+            margins: margin_map(result.margins),
             evaluations: result.evaluations as u64,
             tolerance_bands,
             cautions,
@@ -341,11 +337,6 @@ impl SizeResponse {
         };
         check.finish(response)
     }
-}
-
-/// The metric of a contract name.
-fn metric_named(name: &str) -> Option<Metric> {
-    serde_json::from_value(serde_json::Value::String(name.to_string())).ok()
 }
 
 /// Sizes one design field to meet targets with a safety factor, cold and hot.
@@ -388,7 +379,7 @@ pub async fn size_design(
 ) -> Result<Response, ApiError> {
     negotiate::choose(&headers, &[Media::Json])?;
     let valid = request.validate(&state.limits)?;
-    let path = valid.job.path.clone();
+    let field = valid.job.field;
     let limits = Arc::clone(&state.limits);
     // The runner answers 503 once the request deadline passes and raises the job's token; the
     // search, and the stroke or solver inside it, then stop at their next check instead of
@@ -403,11 +394,7 @@ pub async fn size_design(
                     let mut hot = result.design.clone();
                     hot.tube.temperature_c = valid.hot_temperature_c;
                     hot.magnets.temperature_c = Some(valid.hot_temperature_c);
-                    let metrics: Vec<Metric> = result
-                        .achieved_hot
-                        .keys()
-                        .filter_map(|k| metric_named(k))
-                        .collect();
+                    let metrics: Vec<Metric> = result.achieved_hot.keys().copied().collect();
                     Some(tolerance::bands(
                         &hot,
                         tolerances,
@@ -421,5 +408,5 @@ pub async fn size_design(
             Ok((result, bands))
         })
         .await?;
-    SizeResponse::from_model(result, &path, bands).map(|r| Json(r).into_response())
+    SizeResponse::from_model(result, field, bands).map(|r| Json(r).into_response())
 }

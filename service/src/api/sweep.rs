@@ -44,11 +44,12 @@ use axum::extract::State;
 use axum::extract::rejection::QueryRejection;
 use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
-use ringdrag_model::designpath;
 use ringdrag_model::metrics::Metric;
 use ringdrag_model::report::{Discretisation, Fidelity, ModelInfo};
-use ringdrag_model::sweep::{SweepAxis, SweepPlan, SweepPoint};
-use ringdrag_model::{Caution, CautionKind, Design, DesignSpec, Limits, StrokeOptions};
+use ringdrag_model::sweep::{SweepAxis, SweepPlan, SweepPoint, linspace};
+use ringdrag_model::{
+    Caution, CautionKind, Design, DesignField, DesignSpec, Limits, StrokeOptions,
+};
 use serde::{Deserialize, Deserializer, Serialize};
 use std::collections::BTreeMap;
 use std::convert::Infallible;
@@ -224,7 +225,8 @@ pub(crate) fn check_base_design(
     let design = check_design(spec, &mut found);
     let varied: Vec<String> = varied
         .iter()
-        .map(|p| format!("design.{}", designpath::normalise(p)))
+        .filter_map(|p| DesignField::from_path(p))
+        .map(|f| format!("design.{}", f.path()))
         .collect();
     errors.extend(found.into_iter().filter(|e| !varied.contains(&e.path)));
     design
@@ -274,10 +276,7 @@ impl SweepRequest {
         let mut axes = Vec::with_capacity(self.vary.len());
         for (i, axis) in self.vary.iter().enumerate() {
             match axis {
-                VaryAxis::Values(a) => axes.push(SweepAxis {
-                    path: a.path.clone(),
-                    values: a.values.clone(),
-                }),
+                VaryAxis::Values(a) => axes.push((a.path.clone(), a.values.clone())),
                 VaryAxis::Range(a) => {
                     let steps = a.steps as usize;
                     if steps == 0 {
@@ -297,7 +296,7 @@ impl SweepRequest {
                             ),
                         });
                     } else {
-                        axes.push(SweepAxis::linspace(&a.path, a.from, a.to, steps));
+                        axes.push((a.path.clone(), linspace(a.from, a.to, steps)));
                     }
                 }
             }
@@ -308,10 +307,19 @@ impl SweepRequest {
         if !too_large.is_empty() {
             return Err(ApiError::JobTooLarge(too_large));
         }
-        let requested_axes = axes
+        let mut requested_axes = Vec::with_capacity(axes.len());
+        for (i, (path, values)) in axes.into_iter().enumerate() {
+            let field = DesignField::parse(&path, &format!("vary[{i}].path"))?;
+            requested_axes.push(PlotAxis {
+                field,
+                path,
+                values,
+            });
+        }
+        let axes = requested_axes
             .iter()
-            .map(|a| PlotAxis {
-                path: a.path.clone(),
+            .map(|a| SweepAxis {
+                field: a.field,
                 values: a.values.clone(),
             })
             .collect();
@@ -387,7 +395,8 @@ fn whole_inputs<S: serde::Serializer>(
     use serde::ser::SerializeMap;
     let mut map = serializer.serialize_map(Some(inputs.len()))?;
     for (k, v) in inputs {
-        match field_number(*v, designpath::is_integer_path(k)) {
+        let whole = DesignField::from_path(k).is_some_and(DesignField::is_whole);
+        match field_number(*v, whole) {
             Some(n) => map.serialize_entry(k, &n)?,
             None => map.serialize_entry(k, v)?,
         }
@@ -396,12 +405,17 @@ fn whole_inputs<S: serde::Serializer>(
 }
 
 impl SweepPointDto {
-    /// The record of a model point, its metrics in the order `asked`.
-    pub fn in_order(p: SweepPoint, asked: &[Metric]) -> Self {
+    /// The record of a model point, its metrics in the order `asked`, its inputs by the paths
+    /// of the `requested` axes as the request wrote them.
+    pub fn in_order(p: SweepPoint, asked: &[Metric], requested: &[PlotAxis]) -> Self {
         Self {
             index: p.index as u64,
             metrics: PointMetrics::in_order(&p.metrics, asked),
-            inputs: p.inputs,
+            inputs: p
+                .inputs
+                .into_iter()
+                .map(|(f, v)| (requested_path(requested, f), v))
+                .collect(),
             error: p.error,
             error_estimate_relative: p.error_estimate_relative.filter(|x| x.is_finite()),
             caution_kinds: p.cautions.iter().map(|c| c.kind).collect(),
@@ -478,15 +492,23 @@ pub enum SweepStreamLine {
     End(SweepStreamEnd),
 }
 
-fn axes_dto(plan: &SweepPlan) -> Vec<SweepAxisDto> {
+/// The path of `field` as the request wrote it (a leading `design.` kept).
+fn requested_path(requested: &[PlotAxis], field: DesignField) -> String {
+    requested
+        .iter()
+        .find(|a| a.field == field)
+        .map_or_else(|| field.path().to_string(), |a| a.path.clone())
+}
+
+fn axes_dto(plan: &SweepPlan, requested: &[PlotAxis]) -> Vec<SweepAxisDto> {
     plan.axes()
         .iter()
         .map(|a| SweepAxisDto {
-            path: a.path.clone(),
+            path: requested_path(requested, a.field),
             values: a
                 .values
                 .iter()
-                .filter_map(|v| field_number(*v, designpath::is_integer_path(&a.path)))
+                .filter_map(|v| field_number(*v, a.field.is_whole()))
                 .collect(),
         })
         .collect()
@@ -498,7 +520,7 @@ impl SweepResponse {
         let asked = sweep.plan.metrics();
         let points: Vec<SweepPointDto> = points
             .into_iter()
-            .map(|p| SweepPointDto::in_order(p, asked))
+            .map(|p| SweepPointDto::in_order(p, asked, &sweep.requested_axes))
             .collect();
         let failed = points.iter().filter(|p| p.error.is_some()).count();
         let mut notes = sweep.cautions.clone();
@@ -521,7 +543,7 @@ impl SweepResponse {
             .reduce(f64::max);
         let model = ModelBlock::from_model(info, &mut check);
         check.finish(Self {
-            axes: axes_dto(&sweep.plan),
+            axes: axes_dto(&sweep.plan, &sweep.requested_axes),
             metrics: sweep.plan.metrics().to_vec(),
             failed_points: failed as u64,
             points,
@@ -672,7 +694,7 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
         check.finish(())?;
         ndjson_line(&SweepStreamLine::Header(Box::new(SweepStreamHeader {
             points_total: sweep.plan.len() as u64,
-            axes: axes_dto(&sweep.plan),
+            axes: axes_dto(&sweep.plan, &sweep.requested_axes),
             metrics: sweep.plan.metrics().to_vec(),
             cautions,
             caution_details,
@@ -682,6 +704,7 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
     let (tx, rx) = mpsc::channel::<Line>(STREAM_BUFFER_LINES);
     let runtime = tokio::runtime::Handle::current();
     let plan = sweep.plan;
+    let requested = sweep.requested_axes;
     let total = plan.len() as u64;
     state
         .jobs
@@ -723,6 +746,7 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
                     let bytes = ndjson_line(&SweepStreamLine::Point(SweepPointDto::in_order(
                         point,
                         plan.metrics(),
+                        &requested,
                     )));
                     send(Line::Point { bytes, failed });
                 },
@@ -829,14 +853,9 @@ pub async fn sweep_design(
             let response = SweepResponse::new(&sweep, points)?;
             match media {
                 Media::Svg => {
-                    let metrics: Vec<String> = response
-                        .metrics
-                        .iter()
-                        .map(|m| m.name().to_string())
-                        .collect();
                     let svg = plot::sweep_svg(
                         &sweep.requested_axes,
-                        &metrics,
+                        &response.metrics,
                         &response.points,
                         &spec,
                         &response.model.version,

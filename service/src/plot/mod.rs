@@ -26,7 +26,7 @@ pub mod words;
 pub use force_curve::force_curve_svg;
 pub use stroke::stroke_svg;
 pub use sweep::{PlotAxis, sweep_line_count, sweep_svg};
-pub use words::{axis_title, format_number};
+pub use words::format_number;
 
 use crate::problem::{ApiError, FieldProblem};
 use serde::Deserialize;

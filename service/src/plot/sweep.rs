@@ -6,16 +6,19 @@
 use super::canvas::{Frame, KeyEntry, draw_frame, fail, height_for, render};
 use super::panel::{draw_mesh, markers, new_panel, panel_note};
 use super::style::{FONT, MUTED, Sizes, line_style};
-use super::words::{axis_title, design_summary, field_axis_title, field_scale, field_value};
+use super::words::{design_summary, field_axis_title, field_scale, field_value};
 use super::{PlotError, PlotOptions, model_note, padded};
 use crate::api::sweep::SweepPointDto;
 use plotters::prelude::*;
-use ringdrag_model::DesignSpec;
+use ringdrag_model::metrics::Metric;
+use ringdrag_model::{DesignField, DesignSpec};
 use std::collections::BTreeMap;
 
-/// One axis of a sweep as the plot needs it: the path as requested and its values.
+/// One axis of a sweep as the plot needs it: the field, the path as requested and its values.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PlotAxis {
+    /// The varied field (its words and display unit are the model's field table's).
+    pub field: DesignField,
     /// Dotted path as the request wrote it (the key of each point's `inputs`).
     pub path: String,
     /// Values in the request's order.
@@ -115,7 +118,7 @@ fn marker_points(run: &[(f64, f64)], k: usize, g: usize) -> Vec<(f64, f64)> {
 /// other axes. The caller keeps the line count within [`super::MAX_SWEEP_LINES`].
 pub fn sweep_svg(
     axes: &[PlotAxis],
-    metrics: &[String],
+    metrics: &[Metric],
     points: &[SweepPointDto],
     design: &DesignSpec,
     version: &str,
@@ -125,7 +128,7 @@ pub fn sweep_svg(
     let Some(x_axis) = axes.first() else {
         return Err(PlotError("a sweep without axes".into()));
     };
-    let x_scale = field_scale(&x_axis.path);
+    let x_scale = field_scale(x_axis.field);
     // Group the points by the values of the other axes, in the order the request lists them.
     let mut groups: BTreeMap<Vec<usize>, (String, Vec<&SweepPointDto>)> = BTreeMap::new();
     for p in points {
@@ -139,7 +142,7 @@ pub fn sweep_svg(
                 .position(|a| a.to_bits() == v.to_bits())
                 .unwrap_or(usize::MAX);
             key.push(position);
-            label.push(field_value(&axis.path, v));
+            label.push(field_value(axis.field, v));
         }
         groups
             .entry(key)
@@ -174,11 +177,11 @@ pub fn sweep_svg(
         * x_scale;
     let x_range = padded(x_lo.min(x_hi), x_hi.max(x_lo))
         .ok_or_else(|| PlotError("the first axis's values do not fit one axis".into()))?;
-    let x_title = field_axis_title(&x_axis.path);
+    let x_title = field_axis_title(x_axis.field);
     let panels = metrics.len().max(1);
     let summary = design_summary(design);
-    let varied: Vec<String> = axes.iter().map(|a| field_axis_title(&a.path)).collect();
-    let metric_words: Vec<String> = metrics.iter().map(|m| axis_title(m)).collect();
+    let varied: Vec<String> = axes.iter().map(|a| field_axis_title(a.field)).collect();
+    let metric_words: Vec<String> = metrics.iter().map(|m| m.axis_title()).collect();
     let title = format!("Sweep over {x_title}");
     let frame = Frame {
         title: title.clone(),
@@ -218,7 +221,7 @@ pub fn sweep_svg(
             let area = area.margin(0, sizes.u(0.5), 0, 0);
             let lines: Vec<Vec<Vec<(f64, f64)>>> = groups
                 .values()
-                .map(|(_, pts)| line_runs(pts, &x_axis.path, x_scale, metric))
+                .map(|(_, pts)| line_runs(pts, &x_axis.path, x_scale, metric.name()))
                 .collect();
             let (y_lo, y_hi) = lines
                 .iter()

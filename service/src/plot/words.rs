@@ -1,9 +1,10 @@
-//! The words and numbers a plot prints: number labels, axis titles with units, key entries
-//! for varied design fields in display units (`wall 1.5 mm`, `payload 1 kg`, `2 magnets`),
-//! and a one-line description of a design for titles and `<desc>`.
+//! The words and numbers a plot prints: number labels, key entries for varied design fields
+//! in display units (`wall 1.5 mm`, `payload 1 kg`, `2 magnets`), and a one-line description
+//! of a design for titles and `<desc>`. Words and units of fields and metrics come from the
+//! model's tables ([`DesignField::info`], [`ringdrag_model::metrics::Metric::axis_title`]).
 
-use ringdrag_model::DesignSpec;
 use ringdrag_model::spec::Polarity;
+use ringdrag_model::{DesignField, DesignSpec};
 
 /// A number for a label: three significant digits, plain notation between 1e-4 and 1e5.
 pub fn format_number(v: f64) -> String {
@@ -27,120 +28,14 @@ pub fn format_number(v: f64) -> String {
     }
 }
 
-/// Unit suffixes of the HTTP contract's names, longest first, with the unit as printed.
-const UNITS: [(&str, &str); 20] = [
-    ("_j_per_kg_k", "J/(kg K)"),
-    ("_kg_per_m3", "kg/m³"),
-    ("_n_s_per_m", "N s/m"),
-    ("_m_per_s2", "m/s²"),
-    ("_m_per_s", "m/s"),
-    ("_s_per_m", "S/m"),
-    ("_per_k", "1/K"),
-    ("_fraction", "1"),
-    ("_deg", "°"),
-    ("_kg", "kg"),
-    ("_m", "m"),
-    ("_s", "s"),
-    ("_n", "N"),
-    ("_j", "J"),
-    ("_w", "W"),
-    ("_t", "T"),
-    ("_c", "°C"),
-    ("_k", "K"),
-    ("_number", "1"),
-    ("_error", "1"),
-];
-
-/// An axis title for a contract name: the name without its unit suffix, words spaced, and the
-/// unit in brackets (`terminal_speed_m_per_s` -> `terminal speed [m/s]`).
-pub fn axis_title(name: &str) -> String {
-    let name = name.strip_prefix("design.").unwrap_or(name);
-    for (suffix, unit) in UNITS {
-        if let Some(stem) = name.strip_suffix(suffix) {
-            // `_number`, `_error` and `_fraction` stay part of the words (dimensionless).
-            let stem = if matches!(suffix, "_number" | "_error" | "_fraction") {
-                name
-            } else {
-                stem
-            };
-            return format!("{} [{unit}]", stem.replace(['_', '.'], " "));
-        }
-    }
-    format!("{} [1]", name.replace(['_', '.'], " "))
-}
-
-/// How a varied design field is shown: a short word for the key, a longer one for an axis,
-/// the display unit and the factor from the contract's SI unit to it.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct FieldWords {
-    /// Short name for a key entry (`wall`).
-    pub short: &'static str,
-    /// Name for an axis title (`tube wall thickness`).
-    pub long: &'static str,
-    /// Display unit (`mm`); empty for a pure number.
-    pub unit: &'static str,
-    /// Display value = SI value x `scale`.
-    pub scale: f64,
-}
-
-const fn words(
-    short: &'static str,
-    long: &'static str,
-    unit: &'static str,
-    scale: f64,
-) -> FieldWords {
-    FieldWords {
-        short,
-        long,
-        unit,
-        scale,
-    }
-}
-
-/// The words of a numeric design path (a leading `design.` allowed); None for an unknown path.
-pub fn field_words(path: &str) -> Option<FieldWords> {
-    let path = path.strip_prefix("design.").unwrap_or(path);
-    Some(match path {
-        "magnets.remanence_t" => words("remanence", "magnet remanence", "T", 1.0),
-        "magnets.density_kg_per_m3" => words("magnet density", "magnet density", "kg/m³", 1.0),
-        "magnets.outer_diameter_m" => words("magnet Ø", "magnet outer diameter", "mm", 1e3),
-        "magnets.inner_diameter_m" => words("magnet bore", "magnet inner diameter", "mm", 1e3),
-        "magnets.length_m" => words("magnet length", "length of one magnet", "mm", 1e3),
-        "magnets.count" => words("magnets", "magnets in the stack", "", 1.0),
-        "magnets.spacer_length_m" => words("spacer", "spacer between magnets", "mm", 1e3),
-        "magnets.temperature_c" => words("magnets at", "magnet temperature", "°C", 1.0),
-        "tube.conductivity_s_per_m" => words("conductivity", "tube conductivity", "MS/m", 1e-6),
-        "tube.resistivity_temperature_coefficient_per_k" => words(
-            "resistivity coefficient",
-            "resistivity temperature coefficient",
-            "1/K",
-            1.0,
-        ),
-        "tube.inner_diameter_m" => words("bore", "tube bore", "mm", 1e3),
-        "tube.wall_thickness_m" => words("wall", "tube wall thickness", "mm", 1e3),
-        "tube.length_m" => words("tube", "tube length", "mm", 1e3),
-        "tube.temperature_c" => words("tube at", "tube temperature", "°C", 1.0),
-        "tube.perforation_fraction" => words("perforation", "open area of the wall", "%", 100.0),
-        "tube.density_kg_per_m3" => words("tube density", "tube density", "kg/m³", 1.0),
-        "load.payload_mass_kg" => words("payload", "payload", "kg", 1.0),
-        "load.incline_deg" => words("incline", "incline below horizontal", "°", 1.0),
-        "load.applied_force_n" => words("applied force", "applied force", "N", 1.0),
-        "load.friction_coefficient" => words("friction", "friction coefficient", "", 1.0),
-        "load.gravity_m_per_s2" => words("gravity", "gravity", "m/s²", 1.0),
-        _ => return None,
-    })
-}
-
 /// A key entry for one value of a varied field: `wall 1.5 mm`, `payload 1 kg`, `2 magnets`,
-/// `incline 30°`; the raw path and value for an unknown path.
-pub fn field_value(path: &str, value: f64) -> String {
-    let Some(w) = field_words(path) else {
-        return format!("{path} = {}", format_number(value));
-    };
+/// `incline 30°` (the words and display unit are the model's field table's).
+pub fn field_value(field: DesignField, value: f64) -> String {
+    let w = field.info().display;
     let shown = format_number(value * w.scale);
-    match (path.strip_prefix("design.").unwrap_or(path), w.unit) {
-        ("magnets.count", _) if value == 1.0 => "1 magnet".to_string(),
-        ("magnets.count", _) => format!("{shown} magnets"),
+    match (field, w.unit) {
+        (DesignField::MagnetCount, _) if value == 1.0 => "1 magnet".to_string(),
+        (DesignField::MagnetCount, _) => format!("{shown} magnets"),
         (_, "") => format!("{} {shown}", w.short),
         (_, "°") | (_, "%") => format!("{} {shown}{}", w.short, w.unit),
         (_, unit) => format!("{} {shown} {unit}", w.short),
@@ -148,17 +43,18 @@ pub fn field_value(path: &str, value: f64) -> String {
 }
 
 /// An axis title for a varied field in its display unit (`tube wall thickness [mm]`).
-pub fn field_axis_title(path: &str) -> String {
-    match field_words(path) {
-        Some(w) if w.unit.is_empty() => w.long.to_string(),
-        Some(w) => format!("{} [{}]", w.long, w.unit),
-        None => axis_title(path),
+pub fn field_axis_title(field: DesignField) -> String {
+    let w = field.info().display;
+    if w.unit.is_empty() {
+        w.long.to_string()
+    } else {
+        format!("{} [{}]", w.long, w.unit)
     }
 }
 
-/// Display factor of a varied field (1 for unknown paths).
-pub fn field_scale(path: &str) -> f64 {
-    field_words(path).map_or(1.0, |w| w.scale)
+/// Display factor of a varied field.
+pub fn field_scale(field: DesignField) -> f64 {
+    field.info().display.scale
 }
 
 /// A millimetre figure for a length in metres (`0.0015` -> `1.5`).
@@ -242,38 +138,81 @@ mod tests {
 
     #[test]
     fn titles_carry_units() {
-        assert_eq!(axis_title("terminal_speed_m_per_s"), "terminal speed [m/s]");
-        assert_eq!(axis_title("damping_n_s_per_m"), "damping [N s/m]");
+        use ringdrag_model::metrics::Metric;
+        assert_eq!(Metric::TerminalSpeed.axis_title(), "terminal speed [m/s]");
+        assert_eq!(Metric::Damping.axis_title(), "damping [N s/m]");
         assert_eq!(
-            axis_title("max_deceleration_m_per_s2"),
+            Metric::MaxDeceleration.axis_title(),
             "max deceleration [m/s²]"
         );
         assert_eq!(
-            axis_title("magnetic_reynolds_number"),
+            Metric::MagneticReynolds.axis_title(),
             "magnetic reynolds number [1]"
         );
-        assert_eq!(axis_title("tube.temperature_c"), "tube temperature [°C]");
+        assert_eq!(
+            field_axis_title(DesignField::TubeTemperature),
+            "tube temperature [°C]"
+        );
     }
 
     #[test]
     fn key_entries_are_words_in_display_units() {
-        assert_eq!(field_value("load.payload_mass_kg", 1.0), "payload 1 kg");
-        assert_eq!(field_value("design.magnets.count", 2.0), "2 magnets");
-        assert_eq!(field_value("magnets.count", 1.0), "1 magnet");
-        assert_eq!(field_value("tube.wall_thickness_m", 0.0015), "wall 1.5 mm");
-        assert_eq!(field_value("load.incline_deg", 30.0), "incline 30°");
         assert_eq!(
-            field_value("tube.perforation_fraction", 0.2),
+            field_value(
+                DesignField::from_path("load.payload_mass_kg").expect("a field"),
+                1.0
+            ),
+            "payload 1 kg"
+        );
+        assert_eq!(
+            field_value(
+                DesignField::from_path("design.magnets.count").expect("a field"),
+                2.0
+            ),
+            "2 magnets"
+        );
+        assert_eq!(
+            field_value(
+                DesignField::from_path("magnets.count").expect("a field"),
+                1.0
+            ),
+            "1 magnet"
+        );
+        assert_eq!(
+            field_value(
+                DesignField::from_path("tube.wall_thickness_m").expect("a field"),
+                0.0015
+            ),
+            "wall 1.5 mm"
+        );
+        assert_eq!(
+            field_value(
+                DesignField::from_path("load.incline_deg").expect("a field"),
+                30.0
+            ),
+            "incline 30°"
+        );
+        assert_eq!(
+            field_value(
+                DesignField::from_path("tube.perforation_fraction").expect("a field"),
+                0.2
+            ),
             "perforation 20%"
         );
         assert_eq!(
-            field_value("load.friction_coefficient", 0.1),
+            field_value(
+                DesignField::from_path("load.friction_coefficient").expect("a field"),
+                0.1
+            ),
             "friction 0.1"
         );
         assert_eq!(
-            field_axis_title("tube.wall_thickness_m"),
+            field_axis_title(DesignField::from_path("tube.wall_thickness_m").expect("a field")),
             "tube wall thickness [mm]"
         );
-        assert_eq!(field_axis_title("magnets.count"), "magnets in the stack");
+        assert_eq!(
+            field_axis_title(DesignField::from_path("magnets.count").expect("a field")),
+            "magnets in the stack"
+        );
     }
 }
