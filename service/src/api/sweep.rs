@@ -44,9 +44,9 @@ use axum::extract::State;
 use axum::extract::rejection::QueryRejection;
 use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
-use ringdrag_model::metrics::Metric;
-use ringdrag_model::report::{Discretisation, Fidelity, ModelInfo};
-use ringdrag_model::sweep::{SweepAxis, SweepPlan, SweepPoint, linspace};
+use ringdrag_model::jobs::metrics::Metric;
+use ringdrag_model::jobs::sweep::{SweepAxis, SweepPlan, SweepPoint, linspace};
+use ringdrag_model::records::report::{Discretisation, Fidelity, ModelInfo};
 use ringdrag_model::{
     Caution, CautionKind, Design, DesignField, DesignSpec, Limits, StrokeOptions,
 };

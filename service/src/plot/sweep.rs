@@ -10,7 +10,7 @@ use super::words::{design_summary, field_axis_title, field_scale, field_value};
 use super::{PlotError, PlotOptions, model_note, padded};
 use crate::api::sweep::SweepPointDto;
 use plotters::prelude::*;
-use ringdrag_model::metrics::Metric;
+use ringdrag_model::jobs::metrics::Metric;
 use ringdrag_model::{DesignField, DesignSpec};
 use std::collections::BTreeMap;
 

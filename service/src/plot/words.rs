@@ -1,9 +1,9 @@
 //! The words and numbers a plot prints: number labels, key entries for varied design fields
 //! in display units (`wall 1.5 mm`, `payload 1 kg`, `2 magnets`), and a one-line description
 //! of a design for titles and `<desc>`. Words and units of fields and metrics come from the
-//! model's tables ([`DesignField::info`], [`ringdrag_model::metrics::Metric::axis_title`]).
+//! model's tables ([`DesignField::info`], [`ringdrag_model::jobs::metrics::Metric::axis_title`]).
 
-use ringdrag_model::spec::Polarity;
+use ringdrag_model::records::spec::Polarity;
 use ringdrag_model::{DesignField, DesignSpec};
 
 /// A number for a label: three significant digits, plain notation between 1e-4 and 1e5.
@@ -138,7 +138,7 @@ mod tests {
 
     #[test]
     fn titles_carry_units() {
-        use ringdrag_model::metrics::Metric;
+        use ringdrag_model::jobs::metrics::Metric;
         assert_eq!(Metric::TerminalSpeed.axis_title(), "terminal speed [m/s]");
         assert_eq!(Metric::Damping.axis_title(), "damping [N s/m]");
         assert_eq!(
