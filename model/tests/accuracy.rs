@@ -139,10 +139,8 @@ struct Row {
 #[test]
 fn default_resolution_is_accurate_and_the_estimate_bounds_the_error() {
     let limits = Limits::default();
-    let refined_curve = ForceCurveOptions {
-        radial_layers: Some(24),
-        ..ForceCurveOptions::default()
-    };
+    let refined_curve =
+        ForceCurveOptions::new(None, Some(24), "radial_layers", &limits).expect("valid options");
     let mut rows = Vec::new();
     let mut paths = Vec::new();
     let mut designs: Vec<(String, Design)> = Vec::new();
@@ -191,10 +189,16 @@ fn default_resolution_is_accurate_and_the_estimate_bounds_the_error() {
         let at3 = |c: &ForceCurve| {
             force_curve(
                 design,
-                &ForceCurveOptions {
-                    speeds_m_per_s: Some(vec![v3]),
-                    radial_layers: c.model.discretisation.radial_layers,
-                },
+                &ForceCurveOptions::new(
+                    Some(vec![v3]),
+                    c.model
+                        .discretisation
+                        .radial_layers
+                        .and_then(|n| u32::try_from(n).ok()),
+                    "radial_layers",
+                    &limits,
+                )
+                .expect("valid options"),
                 &limits,
             )
             .expect("point")

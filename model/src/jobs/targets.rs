@@ -30,6 +30,13 @@ use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 use std::sync::{Arc, OnceLock};
 
+/// Smallest and largest safety factor accepted (1: none; 10: beyond any design code's factor
+/// for braking devices; common practice).
+pub const SAFETY_FACTOR_RANGE: (f64, f64) = (1.0, 10.0);
+/// Coldest and hottest hot condition accepted, C (the tube's temperature bounds in the
+/// field table, [`crate::records::designfield`]).
+pub const HOT_TEMPERATURE_RANGE_C: (f64, f64) = (-60.0, 400.0);
+
 /// Targets a design must meet (at least one).
 #[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 #[cfg_attr(feature = "schema", derive(utoipa::ToSchema))]
@@ -362,18 +369,20 @@ impl Judge {
         stroke: StrokeOptions,
         limits: Limits,
     ) -> Result<Self, ModelError> {
-        if !(safety_factor.is_finite() && (1.0..=10.0).contains(&safety_factor)) {
+        let (sf_lo, sf_hi) = SAFETY_FACTOR_RANGE;
+        if !(safety_factor.is_finite() && (sf_lo..=sf_hi).contains(&safety_factor)) {
             return Err(ModelError::field(
                 "safety_factor",
-                "must be between 1 and 10",
+                format!("must be between {sf_lo} and {sf_hi}"),
             ));
         }
+        let (t_lo, t_hi) = HOT_TEMPERATURE_RANGE_C;
         if let Some(t) = hot_temperature_c
-            && !(t.is_finite() && (-60.0..=400.0).contains(&t))
+            && !(t.is_finite() && (t_lo..=t_hi).contains(&t))
         {
             return Err(ModelError::field(
                 "hot_temperature_c",
-                "must be between -60 and 400 C",
+                format!("must be between {t_lo} and {t_hi} C"),
             ));
         }
         target.check("target")?;

@@ -1,6 +1,9 @@
 //! Inputs and results of a stroke simulation (the solver is in [`crate::solvers::transient`]).
 
 use crate::records::caution::Caution;
+use crate::records::error::{FieldError, ModelError};
+use crate::records::forcecurve::check_radial_layers;
+use crate::records::limits::Limits;
 use crate::records::report::{Fidelity, ModelInfo};
 use serde::Serialize;
 
@@ -46,7 +49,118 @@ impl Default for StrokeOptions {
     }
 }
 
+/// Bound on the magnitude of the start and stop positions, m (five lengths of the longest
+/// tube the design bounds admit).
+pub const MAX_POSITION_M: f64 = 100.0;
+/// Largest start speed, m/s (above any speed a passive brake meets; common practice).
+pub const MAX_START_SPEED_M_PER_S: f64 = 1000.0;
+/// Largest axial ring width override, m (five times the largest sensible bore radius).
+pub const MAX_RING_WIDTH_M: f64 = 0.1;
+
+/// Adds a problem at `path` unless `ok` holds for a finite `value`.
+fn within(
+    errs: &mut Vec<FieldError>,
+    path: &str,
+    value: f64,
+    ok: bool,
+    words: impl FnOnce() -> String,
+) {
+    if !(value.is_finite() && ok) {
+        errs.push(FieldError::new(path, words()));
+    }
+}
+
 impl StrokeOptions {
+    /// These options, checked once, at the edge, with the request paths of `/v1/simulate`
+    /// (`start.position_m`, `start.speed_m_per_s`, `max_time_s`, `stop_position_m`,
+    /// `samples`, `resolution.ring_width_m`, `resolution.radial_layers`), which `/v1/sweep`,
+    /// `/v1/size` and `/v1/select` share: the start within +-[`MAX_POSITION_M`] and its speed
+    /// from 0 to [`MAX_START_SPEED_M_PER_S`], a positive time, a stop ahead of the start, at
+    /// least two samples, a ring width up to [`MAX_RING_WIDTH_M`], a layer count within the
+    /// limits; then the time and the samples against `limits`.
+    ///
+    /// # Errors
+    /// [`ModelError::Invalid`] naming every faulty field; [`ModelError::TooLarge`] naming
+    /// `max_time_s` or `samples` when one exceeds its limit.
+    pub fn checked(self, limits: &Limits) -> Result<Self, ModelError> {
+        let mut errs = Vec::new();
+        let p = self.start_position_m;
+        within(
+            &mut errs,
+            "start.position_m",
+            p,
+            p.abs() <= MAX_POSITION_M,
+            || format!("must be between -{MAX_POSITION_M} and {MAX_POSITION_M} m"),
+        );
+        let v = self.start_speed_m_per_s;
+        within(
+            &mut errs,
+            "start.speed_m_per_s",
+            v,
+            (0.0..=MAX_START_SPEED_M_PER_S).contains(&v),
+            || format!("must be between 0 and {MAX_START_SPEED_M_PER_S} m/s"),
+        );
+        let t = self.max_time_s;
+        within(&mut errs, "max_time_s", t, t > 0.0, || {
+            "must be greater than 0 s".to_string()
+        });
+        if let Some(x) = self.stop_position_m {
+            within(
+                &mut errs,
+                "stop_position_m",
+                x,
+                x.abs() <= MAX_POSITION_M && x > p,
+                || {
+                    format!(
+                        "must lie ahead of the start position ({p} m), between -{MAX_POSITION_M} \
+                         and {MAX_POSITION_M} m"
+                    )
+                },
+            );
+        }
+        if self.samples < 2 {
+            errs.push(FieldError::new(
+                "samples",
+                "must be at least 2 (the first and the last point)",
+            ));
+        }
+        if let Some(w) = self.ring_width_m {
+            within(
+                &mut errs,
+                "resolution.ring_width_m",
+                w,
+                w > 0.0 && w <= MAX_RING_WIDTH_M,
+                || format!("must be greater than 0 and at most {MAX_RING_WIDTH_M} m"),
+            );
+        }
+        let layers = self
+            .radial_layers
+            .map(|n| u32::try_from(n).unwrap_or(u32::MAX));
+        check_radial_layers("resolution.radial_layers", layers, limits, &mut errs);
+        if !errs.is_empty() {
+            return Err(ModelError::Invalid(errs));
+        }
+        if t > limits.max_time_s {
+            return Err(ModelError::TooLarge {
+                path: "max_time_s".into(),
+                message: format!(
+                    "{t} s of simulated time requested, above the service limit of {} s",
+                    limits.max_time_s
+                ),
+            });
+        }
+        if self.samples > limits.max_samples {
+            return Err(ModelError::TooLarge {
+                path: "samples".into(),
+                message: format!(
+                    "{} samples requested, above the service limit of {}",
+                    self.samples, limits.max_samples
+                ),
+            });
+        }
+        Ok(self)
+    }
+
     /// The stop position for `tube_length_m`: the one given, or the tube's far end.
     pub fn stop_for(&self, tube_length_m: f64) -> f64 {
         self.stop_position_m.unwrap_or(tube_length_m)

@@ -659,6 +659,8 @@ pub fn force_curve(
     opts: &ForceCurveOptions,
     limits: &Limits,
 ) -> Result<ForceCurve, ModelError> {
+    // The options were checked when they were made (`ForceCurveOptions::new`); only the
+    // work limits of this run are checked here.
     if let Some(speeds) = &opts.speeds_m_per_s {
         Limits::check(
             "speeds_m_per_s",
@@ -666,25 +668,6 @@ pub fn force_curve(
             speeds.len(),
             limits.max_speeds,
         )?;
-        for (i, v) in speeds.iter().enumerate() {
-            if !v.is_finite() || *v < 0.0 || *v > 1.0e4 {
-                return Err(ModelError::field(
-                    format!("speeds_m_per_s[{i}]"),
-                    "must be a finite speed between 0 and 10000 m/s",
-                ));
-            }
-        }
-    }
-    if let Some(n) = opts.radial_layers
-        && (n == 0 || n > limits.max_radial_layers.min(MAX_LAYERS))
-    {
-        return Err(ModelError::field(
-            "resolution.radial_layers",
-            format!(
-                "must be between 1 and {}",
-                limits.max_radial_layers.min(MAX_LAYERS)
-            ),
-        ));
     }
     let layers = opts.radial_layers.unwrap_or_else(|| default_layers(design));
     let solver = SteadySolver::build(design, layers, FINE, limits)?;

@@ -218,10 +218,11 @@ struct Outcome {
 fn validate(opts: &StrokeOptions, design: &Design, limits: &Limits) -> Result<(), ModelError> {
     let mut errs = Vec::new();
     let lt = design.tube.length_m;
-    if !(opts.start_position_m.is_finite() && opts.start_position_m.abs() <= 1000.0) {
+    let max_x = crate::records::stroke::MAX_POSITION_M;
+    if !(opts.start_position_m.is_finite() && opts.start_position_m.abs() <= max_x) {
         errs.push(FieldError::new(
             "start.position_m",
-            "must be a finite number between -1000 and 1000",
+            format!("must be between -{max_x} and {max_x} m"),
         ));
     } else if opts.start_position_m >= lt {
         errs.push(FieldError::new(
@@ -240,12 +241,12 @@ fn validate(opts: &StrokeOptions, design: &Design, limits: &Limits) -> Result<()
         errs.push(FieldError::new("max_time_s", "must be greater than 0"));
     }
     if let Some(stop) = opts.stop_position_m
-        && !(stop.is_finite() && stop.abs() <= 1000.0 && stop > opts.start_position_m)
+        && !(stop.is_finite() && stop.abs() <= max_x && stop > opts.start_position_m)
     {
         errs.push(FieldError::new(
             "stop_position_m",
             format!(
-                "must be a finite position ahead of the start ({} m) and within 1000 m",
+                "must lie ahead of the start position ({} m), between -{max_x} and {max_x} m",
                 opts.start_position_m
             ),
         ));

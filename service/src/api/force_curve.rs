@@ -21,18 +21,15 @@ use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
 use ringdrag_model::jobs::metrics::Metric;
 use ringdrag_model::jobs::tolerance::{self, ToleranceBands, Tolerances};
-use ringdrag_model::{Design, DesignSpec, ForceCurve, ForceCurveOptions, Limits, StrokeOptions};
+use ringdrag_model::{
+    Design, DesignSpec, ForceCurve, ForceCurveOptions, Limits, ModelError, StrokeOptions,
+};
 use serde::{Deserialize, Serialize};
 use std::sync::Arc;
 use utoipa::ToSchema;
 use utoipa::openapi::schema::{ArrayBuilder, ObjectBuilder, Type};
 
-/// Largest speed accepted in a force curve, m/s (the model's own bound; far above any brake's
-/// working range).
-pub const MAX_SPEED_M_PER_S: f64 = 10_000.0;
-
-/// Most field problems listed for one array, so that a bad long array gives a short answer.
-const MAX_LISTED: usize = 10;
+pub use ringdrag_model::records::forcecurve::MAX_SPEED_M_PER_S;
 
 /// Request of `POST /v1/force-curve`.
 #[derive(Debug, Clone, Deserialize, ToSchema)]
@@ -93,22 +90,20 @@ fn speeds_schema() -> ArrayBuilder {
         ))
 }
 
-/// Checks the radial layer override against the model's cap.
-pub(crate) fn check_radial_layers(
-    path: &str,
-    layers: Option<u32>,
-    limits: &Limits,
+/// Adds a model error to the request's problems: field problems to `errors`, a job above a
+/// work limit to `too_large`.
+pub(crate) fn push_model_error(
+    err: ModelError,
     errors: &mut Vec<FieldProblem>,
-) -> Option<usize> {
-    let layers = layers?;
-    if layers == 0 || layers as usize > limits.max_radial_layers {
-        errors.push(FieldProblem {
-            path: path.to_string(),
-            message: format!("must be between 1 and {}", limits.max_radial_layers),
-        });
-        None
-    } else {
-        Some(layers as usize)
+    too_large: &mut Vec<FieldProblem>,
+) {
+    match ApiError::from(err) {
+        ApiError::Invalid(found) => errors.extend(found),
+        ApiError::JobTooLarge(found) => too_large.extend(found),
+        other => errors.push(FieldProblem {
+            path: String::new(),
+            message: other.to_string(),
+        }),
     }
 }
 
@@ -134,32 +129,15 @@ impl ForceCurveRequest {
     pub fn validate(self, limits: &Limits) -> Result<(Design, ForceCurveOptions), ApiError> {
         let mut errors = Vec::new();
         let design = check_design(&self.design, &mut errors);
-        if let Some(speeds) = &self.speeds_m_per_s {
-            if speeds.is_empty() {
-                errors.push(FieldProblem {
-                    path: "speeds_m_per_s".into(),
-                    message: "give at least one speed, or omit the field for the default set"
-                        .into(),
-                });
-            }
-            let bad = speeds
-                .iter()
-                .enumerate()
-                .filter(|(_, v)| !(v.is_finite() && (0.0..=MAX_SPEED_M_PER_S).contains(*v)))
-                .take(MAX_LISTED);
-            for (i, _) in bad {
-                errors.push(FieldProblem {
-                    path: format!("speeds_m_per_s[{i}]"),
-                    message: format!("must be a speed from 0 to {MAX_SPEED_M_PER_S} m/s"),
-                });
-            }
-        }
-        let radial_layers = check_radial_layers(
-            "resolution.radial_layers",
+        let mut too_large = Vec::new();
+        let options = ForceCurveOptions::new(
+            self.speeds_m_per_s,
             self.resolution.radial_layers,
+            "resolution.radial_layers",
             limits,
-            &mut errors,
-        );
+        )
+        .map_err(|e| push_model_error(e, &mut errors, &mut too_large))
+        .ok();
         if let Some(t) = &self.tolerances
             && let Err(e) = t.check("tolerances")
         {
@@ -174,26 +152,12 @@ impl ForceCurveRequest {
         if !errors.is_empty() {
             return Err(ApiError::Invalid(errors));
         }
-        if let Some(speeds) = &self.speeds_m_per_s
-            && speeds.len() > limits.max_speeds
-        {
-            return Err(ApiError::JobTooLarge(vec![FieldProblem {
-                path: "speeds_m_per_s".into(),
-                message: format!(
-                    "{} speeds requested, above the service limit of {}",
-                    speeds.len(),
-                    limits.max_speeds
-                ),
-            }]));
+        if !too_large.is_empty() {
+            return Err(ApiError::JobTooLarge(too_large));
         }
         let design = design.ok_or_else(|| ApiError::Internal("design lost".into()))?;
-        Ok((
-            design,
-            ForceCurveOptions {
-                speeds_m_per_s: self.speeds_m_per_s,
-                radial_layers,
-            },
-        ))
+        let options = options.ok_or_else(|| ApiError::Internal("options lost".into()))?;
+        Ok((design, options))
     }
 }
 

@@ -12,7 +12,7 @@
 //! (default 10000), as for `/v1/sweep`; beyond it the answer is a 422 naming the part lists.
 
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, by_name, cautions};
-use crate::api::simulate::{StartState, check_stop, check_stroke_setup};
+use crate::api::simulate::{StartState, stroke_options};
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
 use crate::problem::{ApiError, FieldProblem, Problem};
@@ -219,31 +219,30 @@ impl SelectRequest {
     pub fn validate(self, limits: &Limits) -> Result<ValidSelect, ApiError> {
         let mut errors = Vec::new();
         let mut too_large = Vec::new();
-        check_stroke_setup(
-            &self.start,
-            self.max_time_s,
+        let stroke = stroke_options(
+            StrokeOptions {
+                start_position_m: self.start.position_m,
+                start_speed_m_per_s: self.start.speed_m_per_s,
+                max_time_s: self.max_time_s,
+                fidelity: self.fidelity,
+                samples: 2,
+                ring_width_m: None,
+                radial_layers: None,
+                stop_position_m: self.stop_position_m,
+                run_out: false,
+            },
             limits,
             &mut errors,
             &mut too_large,
         );
-        check_stop(&self.start, self.stop_position_m, &mut errors);
-        let stroke = StrokeOptions {
-            start_position_m: self.start.position_m,
-            start_speed_m_per_s: self.start.speed_m_per_s,
-            max_time_s: self.max_time_s,
-            fidelity: self.fidelity,
-            samples: 2,
-            ring_width_m: None,
-            radial_layers: None,
-            stop_position_m: self.stop_position_m,
-            run_out: false,
-        };
+        // Judged even when the stroke options are refused, so that every problem is named
+        // at once; the judge is used only when there are none.
         let judge = match Judge::new(
             &self.target,
             self.safety_factor,
             Some(self.hot_temperature_c),
             self.tolerances.clone(),
-            stroke,
+            stroke.unwrap_or_default(),
             limits.clone(),
         ) {
             Ok(j) => Some(j),

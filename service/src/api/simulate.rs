@@ -7,7 +7,7 @@
 //! `Accept: image/svg+xml`, a two-panel plot of speed and braking force against time
 //! ([`crate::plot::stroke_svg`]).
 
-use crate::api::force_curve::{check_design, check_radial_layers};
+use crate::api::force_curve::{check_design, push_model_error};
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
@@ -25,13 +25,6 @@ use ringdrag_model::{Design, DesignSpec, Limits, Stroke, StrokeEnd, StrokeOption
 use serde::{Deserialize, Serialize};
 use std::sync::Arc;
 use utoipa::ToSchema;
-
-/// Bound on the start position magnitude, m (five tube lengths of the longest tube).
-pub const MAX_START_POSITION_M: f64 = 100.0;
-/// Largest start speed, m/s.
-pub const MAX_START_SPEED_M_PER_S: f64 = 1000.0;
-/// Largest axial ring width override, m.
-pub const MAX_RING_WIDTH_M: f64 = 0.1;
 
 /// Where and how fast the stack starts.
 #[derive(Debug, Clone, Default, Deserialize, ToSchema)]
@@ -109,81 +102,19 @@ pub struct SimulateRequest {
     pub run_out: bool,
 }
 
-fn within(
-    errors: &mut Vec<FieldProblem>,
-    path: &str,
-    value: f64,
-    ok: bool,
-    bounds: impl FnOnce() -> String,
-) -> f64 {
-    if !(value.is_finite() && ok) {
-        errors.push(FieldProblem {
-            path: path.to_string(),
-            message: bounds(),
-        });
-    }
-    value
-}
-
-/// Checks a stroke's start state and simulated time, the fields that `/v1/simulate`,
-/// `/v1/sweep` and `/v1/size` share under the same names: invalid values go to `errors`, a
-/// time above the service limit to `too_large`.
-pub(crate) fn check_stroke_setup(
-    start: &StartState,
-    max_time_s: f64,
+/// The stroke options of a request, checked once by the model
+/// ([`StrokeOptions::checked`], which holds the bounds); its problems go to `errors`, a job
+/// above a limit to `too_large`.
+pub(crate) fn stroke_options(
+    options: StrokeOptions,
     limits: &Limits,
     errors: &mut Vec<FieldProblem>,
     too_large: &mut Vec<FieldProblem>,
-) {
-    let p = start.position_m;
-    within(
-        errors,
-        "start.position_m",
-        p,
-        p.abs() <= MAX_START_POSITION_M,
-        || format!("must be between -{MAX_START_POSITION_M} and {MAX_START_POSITION_M} m"),
-    );
-    let v = start.speed_m_per_s;
-    within(
-        errors,
-        "start.speed_m_per_s",
-        v,
-        (0.0..=MAX_START_SPEED_M_PER_S).contains(&v),
-        || format!("must be between 0 and {MAX_START_SPEED_M_PER_S} m/s"),
-    );
-    let t = max_time_s;
-    within(errors, "max_time_s", t, t > 0.0, || {
-        "must be greater than 0 s".to_string()
-    });
-    if t.is_finite() && t > limits.max_time_s {
-        too_large.push(FieldProblem {
-            path: "max_time_s".into(),
-            message: format!(
-                "{t} s of simulated time requested, above the service limit of {} s",
-                limits.max_time_s
-            ),
-        });
-    }
-}
-
-/// Checks an end stop against the start: finite, within the positions a start may take, and
-/// ahead of the start (a stop behind the start is refused, naming `stop_position_m`).
-pub(crate) fn check_stop(start: &StartState, stop: Option<f64>, errors: &mut Vec<FieldProblem>) {
-    if let Some(x) = stop {
-        within(
-            errors,
-            "stop_position_m",
-            x,
-            x.abs() <= MAX_START_POSITION_M && x > start.position_m,
-            || {
-                format!(
-                    "must lie ahead of the start position ({} m), between -{MAX_START_POSITION_M} \
-                     and {MAX_START_POSITION_M} m",
-                    start.position_m
-                )
-            },
-        );
-    }
+) -> Option<StrokeOptions> {
+    options
+        .checked(limits)
+        .map_err(|e| push_model_error(e, errors, too_large))
+        .ok()
 }
 
 impl SimulateRequest {
@@ -192,69 +123,31 @@ impl SimulateRequest {
         let mut errors = Vec::new();
         let mut too_large = Vec::new();
         let design = check_design(&self.design, &mut errors);
-        check_stroke_setup(
-            &self.start,
-            self.max_time_s,
+        let stroke = stroke_options(
+            StrokeOptions {
+                start_position_m: self.start.position_m,
+                start_speed_m_per_s: self.start.speed_m_per_s,
+                max_time_s: self.max_time_s,
+                fidelity: self.fidelity,
+                samples: self.samples as usize,
+                ring_width_m: self.resolution.ring_width_m,
+                radial_layers: self.resolution.radial_layers.map(|n| n as usize),
+                stop_position_m: self.stop_position_m,
+                run_out: self.run_out,
+            },
             limits,
             &mut errors,
             &mut too_large,
         );
-        check_stop(&self.start, self.stop_position_m, &mut errors);
-        let p = self.start.position_m;
-        let v = self.start.speed_m_per_s;
-        let t = self.max_time_s;
-        if self.samples < 2 {
-            errors.push(FieldProblem {
-                path: "samples".into(),
-                message: "must be at least 2 (the first and the last point)".into(),
-            });
-        }
-        let resolution = self.resolution;
-        if let Some(w) = resolution.ring_width_m {
-            within(
-                &mut errors,
-                "resolution.ring_width_m",
-                w,
-                w > 0.0 && w <= MAX_RING_WIDTH_M,
-                || format!("must be greater than 0 and at most {MAX_RING_WIDTH_M} m"),
-            );
-        }
-        let radial_layers = check_radial_layers(
-            "resolution.radial_layers",
-            resolution.radial_layers,
-            limits,
-            &mut errors,
-        );
         if !errors.is_empty() {
             return Err(ApiError::Invalid(errors));
-        }
-        if self.samples as usize > limits.max_samples {
-            too_large.push(FieldProblem {
-                path: "samples".into(),
-                message: format!(
-                    "{} samples requested, above the service limit of {}",
-                    self.samples, limits.max_samples
-                ),
-            });
         }
         if !too_large.is_empty() {
             return Err(ApiError::JobTooLarge(too_large));
         }
         let design = design.ok_or_else(|| ApiError::Internal("design lost".into()))?;
-        Ok((
-            design,
-            StrokeOptions {
-                start_position_m: p,
-                start_speed_m_per_s: v,
-                max_time_s: t,
-                fidelity: self.fidelity,
-                samples: self.samples as usize,
-                ring_width_m: resolution.ring_width_m,
-                radial_layers,
-                stop_position_m: self.stop_position_m,
-                run_out: self.run_out,
-            },
-        ))
+        let stroke = stroke.ok_or_else(|| ApiError::Internal("stroke options lost".into()))?;
+        Ok((design, stroke))
     }
 }
 

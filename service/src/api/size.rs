@@ -10,7 +10,7 @@
 //! metrics are evaluated at the sized design, hot (`ringdrag_model::jobs::tolerance::bands`).
 
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, by_name, cautions, field_number};
-use crate::api::simulate::{StartState, check_stop, check_stroke_setup};
+use crate::api::simulate::{StartState, stroke_options};
 use crate::api::sweep::check_base_design;
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
@@ -30,10 +30,7 @@ use std::collections::BTreeMap;
 use std::sync::Arc;
 use utoipa::ToSchema;
 
-/// Smallest and largest safety factor accepted (the model's bounds).
-const SAFETY_FACTOR_RANGE: (f64, f64) = (1.0, 10.0);
-/// Coldest and hottest hot condition accepted, C (the model's bounds).
-const HOT_TEMPERATURE_RANGE_C: (f64, f64) = (-60.0, 400.0);
+use ringdrag_model::jobs::targets::{HOT_TEMPERATURE_RANGE_C, SAFETY_FACTOR_RANGE};
 
 /// The field to size and the range to search.
 #[derive(Debug, Clone, Deserialize, ToSchema)]
@@ -175,20 +172,29 @@ impl SizeRequest {
         {
             push_model_error(e, &mut errors);
         }
-        check_stroke_setup(
-            &self.start,
-            self.max_time_s,
+        let stroke = stroke_options(
+            StrokeOptions {
+                start_position_m: self.start.position_m,
+                start_speed_m_per_s: self.start.speed_m_per_s,
+                max_time_s: self.max_time_s,
+                fidelity: self.fidelity,
+                samples: 2,
+                ring_width_m: None,
+                radial_layers: None,
+                stop_position_m: self.stop_position_m,
+                run_out: false,
+            },
             limits,
             &mut errors,
             &mut too_large,
         );
-        check_stop(&self.start, self.stop_position_m, &mut errors);
         let Some(field) = field.filter(|_| errors.is_empty()) else {
             return Err(ApiError::Invalid(errors));
         };
         if !too_large.is_empty() {
             return Err(ApiError::JobTooLarge(too_large));
         }
+        let stroke = stroke.ok_or_else(|| ApiError::Internal("stroke options lost".into()))?;
         Ok(ValidSize {
             job: sizing::SizeRequest {
                 base: self.design,
@@ -198,18 +204,7 @@ impl SizeRequest {
                 target: self.target,
                 safety_factor: self.safety_factor,
                 hot_temperature_c: Some(self.hot_temperature_c),
-                stroke: StrokeOptions {
-                    start_position_m: self.start.position_m,
-                    start_speed_m_per_s: self.start.speed_m_per_s,
-                    max_time_s: self.max_time_s,
-                    fidelity: self.fidelity,
-                    // Only the summary of each stroke is used.
-                    samples: 2,
-                    ring_width_m: None,
-                    radial_layers: None,
-                    stop_position_m: self.stop_position_m,
-                    run_out: false,
-                },
+                stroke,
                 seek: self.vary.seek,
                 tolerances: self.tolerances.clone(),
             },

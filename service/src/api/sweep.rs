@@ -31,7 +31,7 @@
 use crate::api::force_curve::check_design;
 use crate::api::point_metrics::PointMetrics;
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions, field_number};
-use crate::api::simulate::{StartState, check_stop, check_stroke_setup};
+use crate::api::simulate::{StartState, stroke_options};
 use crate::extract::ApiJson;
 use crate::negotiate::{self, Media};
 use crate::plot::{self, PlotAxis, PlotOptions};
@@ -265,14 +265,22 @@ impl SweepRequest {
         let mut too_large = Vec::new();
         let varied: Vec<&str> = self.vary.iter().map(VaryAxis::path).collect();
         let base = check_base_design(&self.design, &varied, &mut errors);
-        check_stroke_setup(
-            &self.start,
-            self.max_time_s,
+        let stroke = stroke_options(
+            StrokeOptions {
+                start_position_m: self.start.position_m,
+                start_speed_m_per_s: self.start.speed_m_per_s,
+                max_time_s: self.max_time_s,
+                fidelity: self.fidelity,
+                samples: 2,
+                ring_width_m: None,
+                radial_layers: None,
+                stop_position_m: self.stop_position_m,
+                run_out: false,
+            },
             limits,
             &mut errors,
             &mut too_large,
         );
-        check_stop(&self.start, self.stop_position_m, &mut errors);
         let mut axes = Vec::with_capacity(self.vary.len());
         for (i, axis) in self.vary.iter().enumerate() {
             match axis {
@@ -323,18 +331,7 @@ impl SweepRequest {
                 values: a.values.clone(),
             })
             .collect();
-        let stroke = StrokeOptions {
-            start_position_m: self.start.position_m,
-            start_speed_m_per_s: self.start.speed_m_per_s,
-            max_time_s: self.max_time_s,
-            fidelity: self.fidelity,
-            // Only the summary of each stroke is used.
-            samples: 2,
-            ring_width_m: None,
-            radial_layers: None,
-            stop_position_m: self.stop_position_m,
-            run_out: false,
-        };
+        let stroke = stroke.ok_or_else(|| ApiError::Internal("stroke options lost".into()))?;
         let model = composite_model(&self.metrics, self.fidelity);
         let plan = SweepPlan::new(self.design, axes, self.metrics, stroke, limits.clone())?;
         let mut base_cautions = vec![Caution::standing_safety()];
