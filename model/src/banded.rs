@@ -64,6 +64,11 @@ impl BandMatrix {
 
     /// Cholesky factorisation A = L L^T in place (row-oriented, Cholesky-Banachiewicz).
     /// Fails with [`ModelError::NotPositiveDefinite`] at the first non-positive pivot.
+    ///
+    /// # Errors
+    ///
+    /// [`ModelError::NotPositiveDefinite`] at the first non-positive pivot (the matrix is not
+    /// symmetric positive definite).
     pub fn cholesky(mut self) -> Result<BandCholesky, ModelError> {
         let (n, kd) = (self.n, self.kd);
         let w = kd + 1;
