@@ -10,10 +10,10 @@
 #![allow(missing_docs)]
 
 use criterion::{Criterion, criterion_group, criterion_main};
-use ringdrag_model::selection::{Objective, SelectionPlan, Stock};
-use ringdrag_model::sizing::SizeTarget;
-use ringdrag_model::spec::LoadSpec;
-use ringdrag_model::targets::Judge;
+use ringdrag_model::jobs::selection::{Objective, SelectionPlan, Stock};
+use ringdrag_model::jobs::sizing::SizeTarget;
+use ringdrag_model::jobs::targets::Judge;
+use ringdrag_model::records::spec::LoadSpec;
 use ringdrag_model::{Fidelity, Limits, StrokeOptions};
 
 fn bench(c: &mut Criterion) {

@@ -10,7 +10,7 @@
 #![allow(missing_docs)]
 
 use criterion::{Criterion, criterion_group, criterion_main};
-use ringdrag_model::transient::simulate_stroke_dense_reference;
+use ringdrag_model::solvers::transient::simulate_stroke_dense_reference;
 use ringdrag_model::{Design, DesignSpec, Fidelity, Limits, StrokeOptions, simulate_stroke};
 use std::hint::black_box;
 

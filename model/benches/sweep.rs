@@ -7,8 +7,8 @@
 #![allow(missing_docs)]
 
 use criterion::{Criterion, criterion_group, criterion_main};
-use ringdrag_model::metrics::Metric;
-use ringdrag_model::sweep::{SweepAxis, SweepPlan};
+use ringdrag_model::jobs::metrics::Metric;
+use ringdrag_model::jobs::sweep::{SweepAxis, SweepPlan};
 use ringdrag_model::{DesignSpec, Limits, StrokeOptions};
 
 fn bench(c: &mut Criterion) {

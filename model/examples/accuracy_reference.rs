@@ -13,8 +13,8 @@
 //! The test recomputes a sample of these references at the stored resolution, so a stale
 //! fixture fails.
 
-use ringdrag_model::spec::DesignSpec;
-use ringdrag_model::transient::window_half_length_m;
+use ringdrag_model::records::spec::DesignSpec;
+use ringdrag_model::solvers::transient::window_half_length_m;
 use ringdrag_model::{Design, Fidelity, Limits, StrokeOptions, simulate_stroke};
 use serde_json::{Value, json};
 

@@ -9,47 +9,22 @@
 //! ferromagnetic tubes, no iron pole pieces); magnets rigid and uniformly magnetised along
 //! the axis; conductivity uniform across the wall.
 
-pub mod banded;
-pub mod bessel;
-pub mod cancel;
-pub mod caution;
-pub mod design;
-pub mod designpath;
-pub mod dragprofile;
-pub mod elliptic;
-pub mod error;
-pub mod fieldtext;
-pub mod flux;
-pub mod forcecurve;
-pub mod heat;
-pub mod inductance;
-pub mod limits;
-pub mod materials;
-pub mod metrics;
-pub mod quadrature;
-pub mod report;
-pub mod selection;
-pub mod sizing;
-pub mod spec;
-pub mod spectral;
-pub mod stroke;
-pub mod sweep;
-pub mod symeig;
-pub mod targets;
-pub mod tolerance;
-pub mod transient;
+pub mod jobs;
+pub(crate) mod kernels;
+pub mod records;
+pub mod solvers;
 
-pub use cancel::CancelToken;
-pub use caution::{Caution, CautionKind};
-pub use design::Design;
-pub use error::{FieldError, ModelError};
-pub use forcecurve::{ForceCurve, ForceCurveOptions, ForcePoint};
-pub use limits::Limits;
-pub use report::{Discretisation, Fidelity, ModelInfo};
-pub use spec::DesignSpec;
-pub use spectral::force_curve;
-pub use stroke::{Stroke, StrokeEnd, StrokeOptions, StrokeSeries, StrokeSummary};
-pub use transient::simulate_stroke;
+pub use records::cancel::CancelToken;
+pub use records::caution::{Caution, CautionKind};
+pub use records::design::Design;
+pub use records::error::{FieldError, ModelError};
+pub use records::forcecurve::{ForceCurve, ForceCurveOptions, ForcePoint};
+pub use records::limits::Limits;
+pub use records::report::{Discretisation, Fidelity, ModelInfo};
+pub use records::spec::DesignSpec;
+pub use records::stroke::{Stroke, StrokeEnd, StrokeOptions, StrokeSeries, StrokeSummary};
+pub use solvers::spectral::force_curve;
+pub use solvers::transient::simulate_stroke;
 
 /// Vacuum permeability, H/m, the classical defined value 4 pi 1e-7 (the 2019 SI value differs
 /// by 5.5e-10 relative, far below every other uncertainty here).

@@ -15,7 +15,7 @@
 //!
 //! The test prints its table (run with `--nocapture` to see it).
 
-use ringdrag_model::spec::DesignSpec;
+use ringdrag_model::records::spec::DesignSpec;
 use ringdrag_model::{
     Design, Fidelity, ForceCurve, ForceCurveOptions, Limits, Stroke, StrokeOptions, force_curve,
     simulate_stroke,
@@ -316,7 +316,7 @@ fn the_fixture_is_current() {
 
 #[test]
 fn resolution_follows_the_gap_the_wall_and_the_skin_depth() {
-    use ringdrag_model::transient::grid::{RingGrid, default_layers, default_ring_width_m};
+    use ringdrag_model::solvers::rings::grid::{RingGrid, default_layers, default_ring_width_m};
     let limits = Limits::default();
     let spec = |magnet_length_m: f64, bore_m: f64, wall_m: f64| -> Design {
         let json = format!(
@@ -369,9 +369,9 @@ fn resolution_follows_the_gap_the_wall_and_the_skin_depth() {
 
 #[test]
 fn sweeps_and_sizing_carry_the_estimate_of_their_numbers() {
-    use ringdrag_model::metrics::Metric;
-    use ringdrag_model::sizing::{SizeRequest, SizeTarget, size};
-    use ringdrag_model::sweep::{SweepAxis, SweepPlan};
+    use ringdrag_model::jobs::metrics::Metric;
+    use ringdrag_model::jobs::sizing::{SizeRequest, SizeTarget, size};
+    use ringdrag_model::jobs::sweep::{SweepAxis, SweepPlan};
     // Invented: a 15 mm N42 pair, alternating, in a 16 mm bore 6063 aluminium tube.
     let base: DesignSpec = serde_json::from_str(
         r#"{"magnets":{"grade":"N42","outer_diameter_m":0.015,"length_m":0.015,"count":2,
@@ -396,7 +396,7 @@ fn sweeps_and_sizing_carry_the_estimate_of_their_numbers() {
     .expect("plan");
     for p in plan.run_collect() {
         let mut spec = base.clone();
-        ringdrag_model::designpath::set(
+        ringdrag_model::records::designpath::set(
             &mut spec,
             "tube.wall_thickness_m",
             p.inputs["tube.wall_thickness_m"],

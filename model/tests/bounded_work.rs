@@ -9,11 +9,11 @@
 //! token (the red-team jobs ran for minutes to days).
 
 use proptest::prelude::*;
-use ringdrag_model::cancel::CancelToken;
-use ringdrag_model::forcecurve::ForceCurveOptions;
-use ringdrag_model::report::Fidelity;
-use ringdrag_model::sizing::{Seek, SizeRequest, SizeTarget, size};
-use ringdrag_model::stroke::StrokeOptions;
+use ringdrag_model::jobs::sizing::{Seek, SizeRequest, SizeTarget, size};
+use ringdrag_model::records::cancel::CancelToken;
+use ringdrag_model::records::forcecurve::ForceCurveOptions;
+use ringdrag_model::records::report::Fidelity;
+use ringdrag_model::records::stroke::StrokeOptions;
 use ringdrag_model::{Design, DesignSpec, Limits, ModelError};
 use std::sync::Mutex;
 use std::time::{Duration, Instant};

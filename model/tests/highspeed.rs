@@ -19,10 +19,10 @@
 //! peak force, critical speed, fall-off) that the low-speed dipole laws cannot reach.
 
 use ringdrag_model::Limits;
-use ringdrag_model::design::Design;
-use ringdrag_model::spec::DesignSpec;
-use ringdrag_model::spectral::SteadySolver;
-use ringdrag_model::transient::constant_speed_force;
+use ringdrag_model::records::design::Design;
+use ringdrag_model::records::spec::DesignSpec;
+use ringdrag_model::solvers::spectral::SteadySolver;
+use ringdrag_model::solvers::transient::constant_speed_force;
 use serde::Deserialize;
 
 const TUBE_FORCE_JSON: &str = include_str!("fixtures/tube_force.json");

@@ -2,15 +2,15 @@
 //! the ring circuit, the energy ledger, end effects, the dense reference, and the spectral
 //! steady state.
 
-use ringdrag_model::caution::CautionKind;
-use ringdrag_model::design::Design;
-use ringdrag_model::dragprofile::{drag_profile, long_tube_damping_n_s_per_m};
-use ringdrag_model::spec::DesignSpec;
-use ringdrag_model::spectral::{SteadySolver, force_curve};
-use ringdrag_model::stroke::{Stroke, StrokeEnd, StrokeOptions};
-use ringdrag_model::transient::fluxtable::FluxTable;
-use ringdrag_model::transient::grid::RingGrid;
-use ringdrag_model::transient::{
+use ringdrag_model::records::caution::CautionKind;
+use ringdrag_model::records::design::Design;
+use ringdrag_model::records::spec::DesignSpec;
+use ringdrag_model::records::stroke::{Stroke, StrokeEnd, StrokeOptions};
+use ringdrag_model::solvers::dragprofile::{drag_profile, long_tube_damping_n_s_per_m};
+use ringdrag_model::solvers::rings::fluxtable::FluxTable;
+use ringdrag_model::solvers::rings::grid::RingGrid;
+use ringdrag_model::solvers::spectral::{SteadySolver, force_curve};
+use ringdrag_model::solvers::transient::{
     AUTO_INDUCTIVE_REYNOLDS, constant_speed_force, magnetic_reynolds_number,
     simulate_stroke_dense_reference, window_half_length_m,
 };

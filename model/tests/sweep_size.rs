@@ -1,11 +1,13 @@
 //! Sweeps, inverse sizing and tolerance bands, each checked against separate direct solves.
 
-use ringdrag_model::metrics::Metric;
-use ringdrag_model::sizing::{Seek, SizeRequest, SizeTarget, size};
-use ringdrag_model::spectral::{SteadySolver, force_curve};
-use ringdrag_model::sweep::{SweepAxis, SweepPlan};
-use ringdrag_model::tolerance::{Tolerances, bands};
-use ringdrag_model::{Design, DesignSpec, ForceCurveOptions, Limits, StrokeOptions, designpath};
+use ringdrag_model::jobs::metrics::Metric;
+use ringdrag_model::jobs::sizing::{Seek, SizeRequest, SizeTarget, size};
+use ringdrag_model::jobs::sweep::{SweepAxis, SweepPlan};
+use ringdrag_model::jobs::tolerance::{Tolerances, bands};
+use ringdrag_model::solvers::spectral::{SteadySolver, force_curve};
+use ringdrag_model::{
+    Design, DesignSpec, ForceCurveOptions, Limits, StrokeOptions, records::designpath,
+};
 
 /// Invented scenario: a 15 mm N42 stack of two in an aluminium 6063 tube carrying a 0.2 kg
 /// payload down a vertical shaft.
@@ -299,7 +301,7 @@ fn a_stopped_sweep_skips_the_points_not_yet_started() {
 #[test]
 fn a_stopped_sizing_reports_cancelled() {
     use ringdrag_model::ModelError;
-    use ringdrag_model::sizing::size_while;
+    use ringdrag_model::jobs::sizing::size_while;
     let r = size_while(&wall_request(None), &Limits::default(), &|| false);
     assert_eq!(r.err(), Some(ModelError::Cancelled));
 }

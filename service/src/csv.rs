@@ -15,7 +15,7 @@ use crate::api::force_curve::ForceCurveResponse;
 use crate::api::simulate::SimulateResponse;
 use crate::api::sweep::SweepPointDto;
 use crate::plot::PlotAxis;
-use ringdrag_model::metrics::Metric;
+use ringdrag_model::jobs::metrics::Metric;
 
 /// Line end of every record (RFC 4180, section 2, rule 1).
 const CRLF: &str = "\r\n";

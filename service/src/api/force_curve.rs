@@ -5,7 +5,7 @@
 //! computation runs in the job runner; the result becomes the response record of the HTTP
 //! contract, as JSON or, for `Accept: image/svg+xml`, as a plot ([`crate::plot`]). With
 //! `tolerances`, the response also carries worst-case bands of the headline numbers over the
-//! tolerance corners (`ringdrag_model::tolerance::bands`, at the model's default resolution).
+//! tolerance corners (`ringdrag_model::jobs::tolerance::bands`, at the model's default resolution).
 
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions};
 use crate::extract::ApiJson;
@@ -19,8 +19,8 @@ use axum::extract::State;
 use axum::extract::rejection::QueryRejection;
 use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
-use ringdrag_model::metrics::Metric;
-use ringdrag_model::tolerance::{self, ToleranceBands, Tolerances};
+use ringdrag_model::jobs::metrics::Metric;
+use ringdrag_model::jobs::tolerance::{self, ToleranceBands, Tolerances};
 use ringdrag_model::{Design, DesignSpec, ForceCurve, ForceCurveOptions, Limits, StrokeOptions};
 use serde::{Deserialize, Serialize};
 use std::sync::Arc;

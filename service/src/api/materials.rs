@@ -4,7 +4,7 @@
 use axum::Json;
 use axum::http::{HeaderValue, header};
 use axum::response::{IntoResponse, Response};
-use ringdrag_model::materials::{self, Conductor, MagnetFamily, MagnetGrade};
+use ringdrag_model::records::materials::{self, Conductor, MagnetFamily, MagnetGrade};
 use serde::Serialize;
 use utoipa::ToSchema;
 

@@ -5,7 +5,7 @@
 //! `heat_j` expects to see them so, in JSON as in the CSV columns. A map sorted by name would
 //! put them alphabetically; this record keeps the asked order.
 
-use ringdrag_model::metrics::Metric;
+use ringdrag_model::jobs::metrics::Metric;
 use serde::ser::{Serialize, SerializeMap, Serializer};
 use std::collections::BTreeMap;
 

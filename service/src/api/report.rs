@@ -6,7 +6,7 @@
 //! turns the answer into a `not-computable` problem that names the output field.
 
 use crate::problem::ApiError;
-use ringdrag_model::report::{Fidelity, ModelInfo};
+use ringdrag_model::records::report::{Fidelity, ModelInfo};
 use ringdrag_model::{Caution, CautionKind};
 use serde::Serialize;
 use utoipa::ToSchema;

@@ -2,7 +2,7 @@
 //!
 //! The request names what a shop stocks (tube profiles with cut lengths, magnets, allowed
 //! counts, spacers, optional costs), the load, the targets, the safety factor, the hot
-//! temperature and optional tolerances. The model (`ringdrag_model::selection`) judges every
+//! temperature and optional tolerances. The model (`ringdrag_model::jobs::selection`) judges every
 //! combination at every condition, after a cheap steady bound has rejected those that cannot
 //! meet the targets, and ranks the feasible ones by the objective. A target no part can meet is
 //! an answer (`feasible: false`, rejections counted by reason), not an error.
@@ -21,12 +21,12 @@ use axum::Json;
 use axum::extract::State;
 use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
-use ringdrag_model::report::{Discretisation, Fidelity, ModelInfo};
-use ringdrag_model::selection::{Candidate, Objective, SelectionPlan, Stock};
-use ringdrag_model::sizing::{Governing, SizeTarget};
-use ringdrag_model::spec::LoadSpec;
-use ringdrag_model::targets::Judge;
-use ringdrag_model::tolerance::Tolerances;
+use ringdrag_model::jobs::selection::{Candidate, Objective, SelectionPlan, Stock};
+use ringdrag_model::jobs::sizing::{Governing, SizeTarget};
+use ringdrag_model::jobs::targets::Judge;
+use ringdrag_model::jobs::tolerance::Tolerances;
+use ringdrag_model::records::report::{Discretisation, Fidelity, ModelInfo};
+use ringdrag_model::records::spec::LoadSpec;
 use ringdrag_model::{Caution, CautionKind, DesignSpec, Limits, ModelError, StrokeOptions};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;

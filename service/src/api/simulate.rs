@@ -20,7 +20,7 @@ use axum::extract::State;
 use axum::extract::rejection::QueryRejection;
 use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
-use ringdrag_model::report::Fidelity;
+use ringdrag_model::records::report::Fidelity;
 use ringdrag_model::{Design, DesignSpec, Limits, Stroke, StrokeEnd, StrokeOptions};
 use serde::{Deserialize, Serialize};
 use std::sync::Arc;

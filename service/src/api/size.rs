@@ -5,9 +5,9 @@
 //! by the model (problems of the sized field are left out, since the search replaces its
 //! value), the range, the safety factor, the hot temperature, the targets, the tolerances and
 //! the stroke settings by this module. The search itself is the model's
-//! (`ringdrag_model::sizing::size`): it samples the range, checks that meeting the targets
+//! (`ringdrag_model::jobs::sizing::size`): it samples the range, checks that meeting the targets
 //! switches once, and bisects. When `tolerances` are given, the worst-case bands of the
-//! metrics are evaluated at the sized design, hot (`ringdrag_model::tolerance::bands`).
+//! metrics are evaluated at the sized design, hot (`ringdrag_model::jobs::tolerance::bands`).
 
 use crate::api::report::{CautionDetail, FiniteCheck, ModelBlock, cautions, field_number};
 use crate::api::simulate::{StartState, check_stop, check_stroke_setup};
@@ -20,11 +20,11 @@ use axum::Json;
 use axum::extract::State;
 use axum::http::HeaderMap;
 use axum::response::{IntoResponse, Response};
-use ringdrag_model::metrics::Metric;
-use ringdrag_model::report::Fidelity;
-use ringdrag_model::sizing::{self, Governing, Seek, SizeResult, SizeTarget};
-use ringdrag_model::tolerance::{self, ToleranceBands, Tolerances};
-use ringdrag_model::{DesignSpec, Limits, ModelError, StrokeOptions, designpath};
+use ringdrag_model::jobs::metrics::Metric;
+use ringdrag_model::jobs::sizing::{self, Governing, Seek, SizeResult, SizeTarget};
+use ringdrag_model::jobs::tolerance::{self, ToleranceBands, Tolerances};
+use ringdrag_model::records::report::Fidelity;
+use ringdrag_model::{DesignSpec, Limits, ModelError, StrokeOptions, records::designpath};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 use std::sync::Arc;

@@ -3,7 +3,7 @@
 //! and a one-line description of a design for titles and `<desc>`.
 
 use ringdrag_model::DesignSpec;
-use ringdrag_model::spec::Polarity;
+use ringdrag_model::records::spec::Polarity;
 
 /// A number for a label: three significant digits, plain notation between 1e-4 and 1e5.
 pub fn format_number(v: f64) -> String {
