@@ -211,6 +211,101 @@ fn check_cost(at: String, v: Option<f64>) -> Result<(), ModelError> {
     }
 }
 
+/// Checks the stock: non-empty lists, known materials and grades, sizes and lengths in range,
+/// costs finite and not negative, counts whole and in range.
+fn check_stock(stock: &Stock) -> Result<(), ModelError> {
+    for (name, empty) in [
+        ("parts.tubes", stock.tubes.is_empty()),
+        ("parts.magnets", stock.magnets.is_empty()),
+        ("parts.counts", stock.counts.is_empty()),
+    ] {
+        if empty {
+            return Err(ModelError::field(name, "give at least one part"));
+        }
+    }
+    for (i, t) in stock.tubes.iter().enumerate() {
+        if t.lengths_m.is_empty() {
+            return Err(ModelError::field(
+                format!("parts.tubes[{i}].lengths_m"),
+                "give at least one length",
+            ));
+        }
+        if crate::records::materials::find_conductor(&t.material).is_err() {
+            return Err(ModelError::field(
+                format!("parts.tubes[{i}].material"),
+                format!(
+                    "unknown or unsuitable conductor '{}'; see GET /v1/materials",
+                    t.material
+                ),
+            ));
+        }
+        for (name, v) in [
+            ("inner_diameter_m", t.inner_diameter_m),
+            ("wall_thickness_m", t.wall_thickness_m),
+        ] {
+            if !(v.is_finite() && v > 0.0 && v <= 1.0) {
+                return Err(ModelError::field(
+                    format!("parts.tubes[{i}].{name}"),
+                    "must be greater than 0 and at most 1 m",
+                ));
+            }
+        }
+        if let Some(j) = t
+            .lengths_m
+            .iter()
+            .position(|l| !(l.is_finite() && *l > 0.0 && *l <= 20.0))
+        {
+            return Err(ModelError::field(
+                format!("parts.tubes[{i}].lengths_m[{j}]"),
+                "must be greater than 0 and at most 20 m",
+            ));
+        }
+        check_cost(format!("parts.tubes[{i}].cost_per_m"), t.cost_per_m)?;
+        check_cost(format!("parts.tubes[{i}].cost_each"), t.cost_each)?;
+    }
+    for (i, m) in stock.magnets.iter().enumerate() {
+        if crate::records::materials::find_grade(&m.grade).is_none() {
+            return Err(ModelError::field(
+                format!("parts.magnets[{i}].grade"),
+                format!("unknown grade '{}'; see GET /v1/materials", m.grade),
+            ));
+        }
+        for (name, v) in [
+            ("outer_diameter_m", m.outer_diameter_m),
+            ("length_m", m.length_m),
+        ] {
+            if !(v.is_finite() && v > 0.0 && v <= 1.0) {
+                return Err(ModelError::field(
+                    format!("parts.magnets[{i}].{name}"),
+                    "must be greater than 0 and at most 1 m",
+                ));
+            }
+        }
+        check_cost(format!("parts.magnets[{i}].cost_each"), m.cost_each)?;
+    }
+    for (i, s) in stock.spacers.iter().enumerate() {
+        if !(s.length_m.is_finite() && (0.0..=1.0).contains(&s.length_m)) {
+            return Err(ModelError::field(
+                format!("parts.spacers[{i}].length_m"),
+                "must be between 0 and 1 m",
+            ));
+        }
+        check_cost(format!("parts.spacers[{i}].cost_each"), s.cost_each)?;
+    }
+    for (i, &c) in stock.counts.iter().enumerate() {
+        if !(1..=crate::records::design::MAX_MAGNETS).contains(&c) {
+            return Err(ModelError::field(
+                format!("parts.counts[{i}]"),
+                format!(
+                    "must be a whole number from 1 to {}",
+                    crate::records::design::MAX_MAGNETS
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
 /// Work units of one combination: conditions x (1 steady, or 5 per quasi-static stroke, 50 per
 /// inductive or automatic stroke), as for `/v1/sweep`.
 pub fn work_per_combination(judge: &Judge) -> usize {
@@ -228,6 +323,10 @@ pub fn work_per_combination(judge: &Judge) -> usize {
 impl SelectionPlan {
     /// Checks the stock (non-empty lists, costs finite and not negative, counts whole and in
     /// range) and the work against `limits.max_sweep_points`, naming the lists that drive it.
+    ///
+    /// # Errors
+    /// [`ModelError::Invalid`] naming the first faulty part; [`ModelError::TooLarge`] naming
+    /// `parts` when the combinations' work exceeds the limit.
     pub fn new(
         stock: Stock,
         load: LoadSpec,
@@ -235,95 +334,7 @@ impl SelectionPlan {
         objective: Objective,
         limits: &Limits,
     ) -> Result<Self, ModelError> {
-        for (name, empty) in [
-            ("parts.tubes", stock.tubes.is_empty()),
-            ("parts.magnets", stock.magnets.is_empty()),
-            ("parts.counts", stock.counts.is_empty()),
-        ] {
-            if empty {
-                return Err(ModelError::field(name, "give at least one part"));
-            }
-        }
-        for (i, t) in stock.tubes.iter().enumerate() {
-            if t.lengths_m.is_empty() {
-                return Err(ModelError::field(
-                    format!("parts.tubes[{i}].lengths_m"),
-                    "give at least one length",
-                ));
-            }
-            if crate::records::materials::find_conductor(&t.material).is_err() {
-                return Err(ModelError::field(
-                    format!("parts.tubes[{i}].material"),
-                    format!(
-                        "unknown or unsuitable conductor '{}'; see GET /v1/materials",
-                        t.material
-                    ),
-                ));
-            }
-            for (name, v) in [
-                ("inner_diameter_m", t.inner_diameter_m),
-                ("wall_thickness_m", t.wall_thickness_m),
-            ] {
-                if !(v.is_finite() && v > 0.0 && v <= 1.0) {
-                    return Err(ModelError::field(
-                        format!("parts.tubes[{i}].{name}"),
-                        "must be greater than 0 and at most 1 m",
-                    ));
-                }
-            }
-            if let Some(j) = t
-                .lengths_m
-                .iter()
-                .position(|l| !(l.is_finite() && *l > 0.0 && *l <= 20.0))
-            {
-                return Err(ModelError::field(
-                    format!("parts.tubes[{i}].lengths_m[{j}]"),
-                    "must be greater than 0 and at most 20 m",
-                ));
-            }
-            check_cost(format!("parts.tubes[{i}].cost_per_m"), t.cost_per_m)?;
-            check_cost(format!("parts.tubes[{i}].cost_each"), t.cost_each)?;
-        }
-        for (i, m) in stock.magnets.iter().enumerate() {
-            if crate::records::materials::find_grade(&m.grade).is_none() {
-                return Err(ModelError::field(
-                    format!("parts.magnets[{i}].grade"),
-                    format!("unknown grade '{}'; see GET /v1/materials", m.grade),
-                ));
-            }
-            for (name, v) in [
-                ("outer_diameter_m", m.outer_diameter_m),
-                ("length_m", m.length_m),
-            ] {
-                if !(v.is_finite() && v > 0.0 && v <= 1.0) {
-                    return Err(ModelError::field(
-                        format!("parts.magnets[{i}].{name}"),
-                        "must be greater than 0 and at most 1 m",
-                    ));
-                }
-            }
-            check_cost(format!("parts.magnets[{i}].cost_each"), m.cost_each)?;
-        }
-        for (i, s) in stock.spacers.iter().enumerate() {
-            if !(s.length_m.is_finite() && (0.0..=1.0).contains(&s.length_m)) {
-                return Err(ModelError::field(
-                    format!("parts.spacers[{i}].length_m"),
-                    "must be between 0 and 1 m",
-                ));
-            }
-            check_cost(format!("parts.spacers[{i}].cost_each"), s.cost_each)?;
-        }
-        for (i, &c) in stock.counts.iter().enumerate() {
-            if !(1..=crate::records::design::MAX_MAGNETS).contains(&c) {
-                return Err(ModelError::field(
-                    format!("parts.counts[{i}]"),
-                    format!(
-                        "must be a whole number from 1 to {}",
-                        crate::records::design::MAX_MAGNETS
-                    ),
-                ));
-            }
-        }
+        check_stock(&stock)?;
         let mut combos = Vec::new();
         let spacers: Vec<Option<usize>> = if stock.spacers.is_empty() {
             vec![None]
@@ -498,6 +509,9 @@ impl SelectionPlan {
     /// Judges every combination (in parallel) and ranks the feasible ones. Combinations not
     /// yet started are skipped once `keep_going` answers false, and the job reports
     /// [`ModelError::Cancelled`].
+    ///
+    /// # Errors
+    /// [`ModelError::Cancelled`] when `keep_going` answers false or the job's token fires.
     pub fn run_while(
         &self,
         keep_going: &(dyn Fn() -> bool + Sync),

@@ -102,6 +102,9 @@ pub struct SizeResult {
     pub model: ModelInfo,
 }
 
+/// Sampled values: each with its verdict (None where not a valid design), and the reasons.
+type Sampled = (Vec<(f64, Option<Verdict>)>, Vec<String>);
+
 struct Search<'a> {
     req: &'a SizeRequest,
     keep_going: &'a (dyn Fn() -> bool + Sync),
@@ -115,6 +118,40 @@ impl Search<'_> {
         let mut spec = self.req.base.clone();
         self.req.field.set(&mut spec, x)?;
         Ok(spec)
+    }
+
+    /// Samples the range at up to nine values (whole numbers for whole-number fields): each
+    /// value's verdict, None where it is not a valid design, and the reasons of those.
+    fn sample(&mut self, integer: bool) -> Result<Sampled, ModelError> {
+        let (lo, hi) = (self.req.min, self.req.max);
+        let samples = if integer {
+            ((hi - lo) as usize + 1).min(9)
+        } else {
+            9
+        };
+        let xs: Vec<f64> = (0..samples)
+            .map(|i| {
+                let x = if samples == 1 {
+                    lo
+                } else {
+                    lo + (hi - lo) * i as f64 / (samples - 1) as f64
+                };
+                if integer { x.round() } else { x }
+            })
+            .collect();
+        let mut evals: Vec<(f64, Option<Verdict>)> = Vec::new();
+        let mut errors = Vec::new();
+        for &x in &xs {
+            match self.evaluate(x) {
+                Ok(e) => evals.push((x, Some(e))),
+                Err(ModelError::Cancelled) => return Err(ModelError::Cancelled),
+                Err(e) => {
+                    errors.push(format!("{x}: {e}"));
+                    evals.push((x, None));
+                }
+            }
+        }
+        Ok((evals, errors))
     }
 
     fn evaluate(&mut self, x: f64) -> Result<Verdict, ModelError> {
@@ -175,35 +212,8 @@ pub fn size_while(
     let mut cautions = vec![Caution::standing_safety()];
     let largest = req.seek == Seek::Largest;
 
-    // Sample the range.
     let (lo, hi) = (req.min, req.max);
-    let samples = if integer {
-        ((hi - lo) as usize + 1).min(9)
-    } else {
-        9
-    };
-    let xs: Vec<f64> = (0..samples)
-        .map(|i| {
-            let x = if samples == 1 {
-                lo
-            } else {
-                lo + (hi - lo) * i as f64 / (samples - 1) as f64
-            };
-            if integer { x.round() } else { x }
-        })
-        .collect();
-    let mut evals: Vec<(f64, Option<Verdict>)> = Vec::new();
-    let mut errors = Vec::new();
-    for &x in &xs {
-        match search.evaluate(x) {
-            Ok(e) => evals.push((x, Some(e))),
-            Err(ModelError::Cancelled) => return Err(ModelError::Cancelled),
-            Err(e) => {
-                errors.push(format!("{x}: {e}"));
-                evals.push((x, None));
-            }
-        }
-    }
+    let (evals, errors) = search.sample(integer)?;
     if !errors.is_empty() {
         cautions.push(Caution::new(
             CautionKind::ModelLimit,
@@ -289,6 +299,18 @@ pub fn size_while(
             (true, good, e)
         }
     };
+    finish(search, feasible, x_final, eval_final, cautions)
+}
+
+/// The answer for the value found (`x_final`, judged as `eval_final`), with the cautions.
+fn finish(
+    search: Search<'_>,
+    feasible: bool,
+    x_final: f64,
+    eval_final: Verdict,
+    mut cautions: Vec<Caution>,
+) -> Result<SizeResult, ModelError> {
+    let req = search.req;
     if !feasible {
         cautions.push(Caution::new(
             CautionKind::ModelLimit,

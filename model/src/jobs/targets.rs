@@ -247,6 +247,9 @@ impl SizeTarget {
 
     /// Checks that at least one target is given and every limit is finite and positive,
     /// naming fields under `at` (e.g. `target`).
+    ///
+    /// # Errors
+    /// [`ModelError::Invalid`] naming `at` without targets, or the first faulty limit.
     pub fn check(&self, at: &str) -> Result<(), ModelError> {
         let bounds = self.bounds();
         if bounds.is_empty() {
@@ -361,6 +364,9 @@ impl Judge {
     /// A judge for `target` with safety factor `safety_factor` (1 to 10), hot condition
     /// `hot_temperature_c` and optional tolerances; strokes run with `stroke`. Validates the
     /// targets (under `target`), the safety factor, the hot temperature and the tolerances.
+    ///
+    /// # Errors
+    /// [`ModelError::Invalid`] naming the first faulty field.
     pub fn new(
         target: &SizeTarget,
         safety_factor: f64,
@@ -495,6 +501,9 @@ impl Judge {
     /// Judges one design at every condition (conditions in parallel). Fails only when the
     /// nominal design is not valid or `keep_going` answers false; a failing corner fails its
     /// targets.
+    ///
+    /// # Errors
+    /// The nominal design's validation error; [`ModelError::Cancelled`].
     pub fn judge(
         &self,
         spec: &DesignSpec,

@@ -155,12 +155,20 @@ pub fn default_layers(design: &Design) -> usize {
 
 impl SteadySolver {
     /// Builds the solver with `radial_layers` layers (default from [`default_layers`]).
+    ///
+    /// # Errors
+    /// [`ModelError::TooLarge`] for a layer count or work above the limits,
+    /// [`ModelError::Cancelled`] when the limits' token fires.
     pub fn new(design: &Design, radial_layers: Option<usize>) -> Result<Self, ModelError> {
         Self::new_within(design, radial_layers, &Limits::default())
     }
 
     /// Like [`SteadySolver::new`], within the work `limits` and stopping when their
     /// cancellation token fires.
+    ///
+    /// # Errors
+    /// [`ModelError::TooLarge`] for a layer count or work above the limits,
+    /// [`ModelError::Cancelled`] when the limits' token fires.
     pub fn new_within(
         design: &Design,
         radial_layers: Option<usize>,
@@ -179,6 +187,10 @@ impl SteadySolver {
     /// The resolution companion of the solver [`SteadySolver::new`] builds with
     /// `radial_layers`: fewer layers and half the wavenumber density (see [`metrics_change`]),
     /// within the work `limits`.
+    ///
+    /// # Errors
+    /// [`ModelError::TooLarge`] for a layer count or work above the limits,
+    /// [`ModelError::Cancelled`] when the limits' token fires.
     pub fn companion(
         design: &Design,
         radial_layers: Option<usize>,
@@ -537,7 +549,11 @@ fn stack_weights(design: &Design, kappas: &[f64], limits: &Limits) -> Result<Vec
         .windows(2)
         .map(|p| exact_panels(p[0], p[1] - p[0]).map_or(4.0, |n| 4.0 * n * offsets.len() as f64))
         .sum();
-    if !(terms <= limits.max_quadrature_terms as f64) {
+    // Not within the cap, NaN included.
+    if !matches!(
+        terms.partial_cmp(&(limits.max_quadrature_terms as f64)),
+        Some(std::cmp::Ordering::Less | std::cmp::Ordering::Equal)
+    ) {
         return Err(ModelError::TooLarge {
             path: if stack.count > 1 && stack.spacer_length_m > 0.0 {
                 "design.magnets.spacer_length_m".into()
@@ -654,6 +670,10 @@ fn default_speeds(terminal: Option<f64>, critical: f64) -> Vec<f64> {
 
 /// The steady force-speed curve of `design` in a long tube, with damping coefficient, peak
 /// force, critical speed, terminal speed for the design's load and a resolution check.
+///
+/// # Errors
+/// [`ModelError::TooLarge`] above the work limits (speeds, quadrature terms),
+/// [`ModelError::Cancelled`] when the job's token fires.
 pub fn force_curve(
     design: &Design,
     opts: &ForceCurveOptions,
