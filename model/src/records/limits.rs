@@ -73,6 +73,10 @@ impl Limits {
     }
 
     /// Checks `value <= cap`, naming `path` otherwise.
+    ///
+    /// # Errors
+    ///
+    /// [`ModelError::TooLarge`] naming `path` when `value` exceeds `cap`.
     pub fn check(path: &str, what: &str, value: usize, cap: usize) -> Result<(), ModelError> {
         if value > cap {
             Err(ModelError::TooLarge {
