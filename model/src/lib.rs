@@ -70,6 +70,7 @@
 //! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```
 
+pub mod jobs;
 pub(crate) mod kernels;
 pub mod records;
 pub mod solvers;
