@@ -10,6 +10,10 @@ use serde::Serialize;
 /// Largest speed of a force curve, m/s (ten times the fastest critical speed of the designs
 /// the bounds admit; common practice for a margin).
 pub const MAX_SPEED_M_PER_S: f64 = 10_000.0;
+/// Hard cap on radial layers across the wall, whatever the limits say (the layered solvers'
+/// cost grows as the cube of the count; 32 resolves the skin depth of every admitted design at
+/// its critical speed several times over).
+pub const MAX_RADIAL_LAYERS: usize = 32;
 /// Most faulty speeds named in one answer (the rest are alike).
 const MAX_LISTED: usize = 10;
 
@@ -27,7 +31,7 @@ impl ForceCurveOptions {
     /// Checks a force curve's options: at least one speed when a list is given, every speed
     /// finite and from 0 to [`MAX_SPEED_M_PER_S`], no more speeds than `limits.max_speeds`,
     /// and a layer count from 1 to `limits.max_radial_layers` (at most
-    /// [`crate::solvers::spectral::MAX_LAYERS`]). `layers_at` is the request path of the layer
+    /// [`MAX_RADIAL_LAYERS`]). `layers_at` is the request path of the layer
     /// count.
     ///
     /// # Errors
@@ -98,7 +102,7 @@ impl ForceCurveOptions {
 }
 
 /// Checks a radial layer count at `path`: 1 to `limits.max_radial_layers`, at most
-/// [`crate::solvers::spectral::MAX_LAYERS`]; the count, or None (with the problem in `errs`
+/// [`MAX_RADIAL_LAYERS`]; the count, or None (with the problem in `errs`
 /// when it is out of range).
 pub fn check_radial_layers(
     path: &str,
@@ -107,9 +111,7 @@ pub fn check_radial_layers(
     errs: &mut Vec<FieldError>,
 ) -> Option<usize> {
     let layers = layers?;
-    let max = limits
-        .max_radial_layers
-        .min(crate::solvers::spectral::MAX_LAYERS);
+    let max = limits.max_radial_layers.min(MAX_RADIAL_LAYERS);
     if layers == 0 || layers as usize > max {
         errs.push(FieldError::new(
             path,

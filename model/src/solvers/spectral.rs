@@ -64,8 +64,8 @@ pub const LAYERS_PER_SKIN_DEPTH: f64 = 3.0;
 /// speed 2 / (mu0 sigma w), which is of the order of the critical speed (the default curve
 /// runs to ten times the critical speed; the headline numbers live at and below it).
 pub const SKIN_SPEED_PER_CHARACTERISTIC: f64 = 3.0;
-/// Hard cap on radial layers.
-pub const MAX_LAYERS: usize = 32;
+/// Hard cap on radial layers (the records' bound, which options are checked against).
+pub const MAX_LAYERS: usize = crate::records::forcecurve::MAX_RADIAL_LAYERS;
 
 /// Self-linkage correction of a layer: a current sheet at the layer's node links more of its
 /// own flux than the layer of thickness w it stands for, because inside a conductor carrying a
