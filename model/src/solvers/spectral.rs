@@ -537,7 +537,10 @@ fn stack_weights(design: &Design, kappas: &[f64], limits: &Limits) -> Result<Vec
         .windows(2)
         .map(|p| exact_panels(p[0], p[1] - p[0]).map_or(4.0, |n| 4.0 * n * offsets.len() as f64))
         .sum();
-    if !(terms <= limits.max_quadrature_terms as f64) {
+    if !matches!(
+        terms.partial_cmp(&(limits.max_quadrature_terms as f64)),
+        Some(std::cmp::Ordering::Less | std::cmp::Ordering::Equal)
+    ) {
         return Err(ModelError::TooLarge {
             path: if stack.count > 1 && stack.spacer_length_m > 0.0 {
                 "design.magnets.spacer_length_m".into()

@@ -79,6 +79,21 @@ pub fn quasi_static_overstatement(rm: f64) -> f64 {
 /// The stack moves at most about this fraction of a ring width per step.
 pub const STEP_FRACTION: f64 = 0.5;
 
+/// The inductive step may grow to this many times the ring-width step (STEP_FRACTION of a
+/// ring) where the estimated local error of the braking force stays below
+/// [`FORCE_ERROR_TOLERANCE`].
+const MAX_STEP_STRETCH: f64 = 8.0;
+/// Local error allowed in the braking force per inductive step, relative to the larger of the
+/// braking force, the drive and friction.
+const FORCE_ERROR_TOLERANCE: f64 = 1e-4;
+/// Longer steps than the ring-width step only while the braking force (relative to the larger
+/// of it, the drive and friction) and the speed change by less than this per step: the
+/// stack's motion is steady, and the largest braking force is still sampled finely.
+const STEADY_CHANGE: f64 = 2e-3;
+/// The step is doubled when the estimated error is below this fraction of the tolerance
+/// (doubling multiplies BDF2's local error by about 8).
+const GROWTH_ERROR_RATIO: f64 = 0.1;
+
 /// The quasi-static step also resolves the mechanical time constant m / c: dt <= this x m / c.
 const QS_MECHANICAL_FRACTION: f64 = 0.5;
 /// The inductive step: dt <= this x m / c (BDF2 is L-stable; this is for accuracy only).
@@ -195,7 +210,7 @@ struct Plan {
     speeds: ExpectedSpeeds,
     /// Largest acceleration the drive and friction can give, m/s^2.
     accel_bound_m_per_s2: f64,
-    /// Window half-length (field reach), m.
+    /// Window half-length (field reach and wake), m.
     reach_m: f64,
     max_steps: usize,
     rules: EndRules,
@@ -356,7 +371,7 @@ fn run_quasi_static(plan: &Plan, profile: &DragProfile, dz: f64) -> Result<Outco
         if tally.steps >= plan.max_steps {
             return Err(too_many_steps(plan));
         }
-        if tally.steps % CANCEL_CHECK_STEPS == 0 {
+        if tally.steps.is_multiple_of(CANCEL_CHECK_STEPS) {
             plan.cancel.check()?;
         }
         let dt = step_for_distance(v, plan.accel_bound_m_per_s2, STEP_FRACTION * dz)
@@ -460,13 +475,15 @@ fn run_inductive(
     rec.offer([t, x, plan.v0_m_per_s, 0.0, 0.0]);
     let mut power0 = 0.0;
     let mut brake_last;
+    let mut em_last = 0.0;
+    let payback_steps = (circuit.half_bandwidth() as f64 / 4.0).max(8.0);
     let mut dt_min = dt0;
     let mut dt_reduced = false;
     let end = loop {
         if tally.steps >= plan.max_steps {
             return Err(too_many_steps(plan));
         }
-        if tally.steps % CANCEL_CHECK_STEPS_INDUCTIVE == 0 {
+        if tally.steps.is_multiple_of(CANCEL_CHECK_STEPS_INDUCTIVE) {
             plan.cancel.check()?;
         }
         let remaining = plan.max_time_s - t;
@@ -505,23 +522,64 @@ fn run_inductive(
         if let Some(e) = done {
             break e;
         }
-        // Step control: about STEP_FRACTION of a ring width per step.
+        // Step control: at least about STEP_FRACTION of a ring width per step; up to
+        // MAX_STEP_STRETCH times that while the estimated force error stays small.
         let target = want(v1);
-        if st.dt_s > 1.5 * target {
+        // Long steps only where the motion can stay steady: in free flight with the window
+        // clear of the tube for the next steps (no factorisation needed there), or with the
+        // stack inside the tube; never across the entry, and the change and error checks
+        // below bring the step back down as the field reaches the far end.
+        let lookahead = 4.0 * v1.abs() * MAX_STEP_STRETCH * target;
+        let lt = plan.rules.tube_length_m;
+        let clear = x1 + plan.reach_m + lookahead < 0.0 || x1 - plan.reach_m > lt;
+        let stop = plan.rules.end_position_m.min(lt);
+        let inside = x1 >= 0.0 && x1 + lookahead <= stop;
+        let ceiling = if clear || inside {
+            MAX_STEP_STRETCH * target
+        } else {
+            target
+        };
+        let scale = em.abs().max(mech.drive_n.abs()).max(mech.friction_n);
+        let error = st
+            .force_error_n()
+            .map(|e| e / (FORCE_ERROR_TOLERANCE * scale).max(1e-300));
+        // A longer step that needs a new factorisation pays only if enough of the stroke is
+        // left to take it in (a factorisation costs about kd / 8 steps of the fused pair of
+        // solves, kd the half-bandwidth).
+        let steady_run_m = stop - x1;
+        // How much the motion changed over the step: long steps only where nothing changes.
+        let change = ((em - em_last).abs() / scale.max(1e-300))
+            .max((v1 - v).abs() / v1.abs().max(v.abs()).max(1e-300));
+        em_last = em;
+        if st.dt_s > 1.5 * ceiling {
             let mut new_dt = st.dt_s;
-            while new_dt > 1.5 * target {
+            while new_dt > 1.5 * ceiling {
                 new_dt *= 0.5;
             }
             st.shrink_dt(new_dt)?;
             dt_reduced = dt_reduced || v1 > plan.speeds.overall_m_per_s;
-        } else if 2.0 * st.dt_s <= target {
+        } else if st.dt_s > 1.5 * target
+            && (error.is_some_and(|e| e > 1.0) || change > 4.0 * STEADY_CHANGE)
+        {
+            st.shrink_dt(0.5 * st.dt_s)?;
+        } else if 2.0 * st.dt_s <= target
+            || (2.0 * st.dt_s <= ceiling
+                && change < STEADY_CHANGE
+                && error.is_some_and(|e| e < GROWTH_ERROR_RATIO)
+                && (clear
+                    || st.has_factor(2.0 * st.dt_s)
+                    || steady_run_m >= payback_steps * v1.abs() * 2.0 * st.dt_s))
+        {
             st.try_double_dt()?;
         }
+        // The error estimate decides only above the ring-width step or where it may grow.
+        st.estimate_error = st.dt_s > 1.5 * target || 2.0 * st.dt_s <= ceiling;
     };
     let (te, xe, ve) = tally.end_state;
     let series = rec.finish([te, xe, ve, brake_last, power0]);
     let stored = st.stored_energy_j();
     let refactors = st.refactorisations;
+
     Ok((
         Outcome {
             tally,
@@ -784,6 +842,7 @@ fn inductive_companions(
     let dz2 = design.tube.length_m / rings2 as f64;
     let axial = inductive_run_on(design, limits, plan, dz2, rings2, grid.layers, c_max)?;
     let axial_change = headline_change(outcome, &axial);
+
     let half = grid.layers.div_ceil(2);
     let radial_change = if half < grid.layers {
         let radial = inductive_run_on(design, limits, plan, dz2, rings2, half, c_max)?;

@@ -78,6 +78,14 @@ pub struct RingAlignment {
     pub weights: [f64; 4],
 }
 
+/// Whether `value <= cap` (false for NaN).
+fn within(value: f64, cap: f64) -> bool {
+    matches!(
+        value.partial_cmp(&cap),
+        Some(std::cmp::Ordering::Less | std::cmp::Ordering::Equal)
+    )
+}
+
 /// Memory and work of one tabulation, estimated from the stack and the grid before anything
 /// is allocated (f64 arithmetic, so absurd designs cannot overflow the estimate).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -120,8 +128,9 @@ impl TableCost {
         grid: &RingGrid,
         limits: &Limits,
     ) -> Result<(), ModelError> {
-        let entries_over = !(self.entries <= limits.max_table_entries as f64);
-        let work_over = !(self.evaluations <= limits.max_kernel_evaluations as f64);
+        // NaN counts as over.
+        let entries_over = !within(self.entries, limits.max_table_entries as f64);
+        let work_over = !within(self.evaluations, limits.max_kernel_evaluations as f64);
         if !(entries_over || work_over) {
             return Ok(());
         }
