@@ -46,6 +46,7 @@ pub(crate) enum WindowMode {
     /// Rings within `half_length_m` of the stack centre; `finite` clips to the tube.
     Moving { half_length_m: f64, finite: bool },
     /// Every ring of the (finite) tube, always: the dense reference.
+    #[cfg_attr(not(feature = "dense-reference"), allow(dead_code))]
     WholeTube,
 }
 
