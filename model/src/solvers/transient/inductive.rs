@@ -320,21 +320,29 @@ pub(super) fn inductive_path(
             ),
         );
     }
-    let (outcome, _) = run_inductive(
-        plan,
-        &grid,
-        table,
-        &circuit,
-        mode,
-        ctx.profile.max_n_s_per_m(),
-    )?;
+    // Resolution companions on the discretisation actually used: twice the ring width (and
+    // so twice the step) with the same layers, and that with half the layers. Each costs about
+    // 1/8 and 1/32 of the main run (cells x band x steps); they do not depend on it, so they
+    // run beside it on the job's threads (rayon's pool, shared with every other job: no
+    // oversubscription).
+    let (main, companions) = rayon::join(
+        || {
+            run_inductive(
+                plan,
+                &grid,
+                table,
+                &circuit,
+                mode,
+                ctx.profile.max_n_s_per_m(),
+            )
+        },
+        || companion_runs(design, limits, plan, &grid, ctx),
+    );
+    let (outcome, _) = main?;
     let err = outcome
         .tally
         .energy_balance_error(outcome.stored_j, outcome.dropped_j);
-    // Resolution companions on the discretisation actually used: twice the ring width (and
-    // so twice the step) with the same layers, and that with half the layers. Each costs about
-    // 1/8 and 1/32 of the main run (cells x band x steps).
-    let resolution = inductive_companions(design, limits, plan, &grid, ctx, &outcome)?;
+    let resolution = companions?.estimate(&outcome);
     let mut info = ring_circuit_info(
         "ring_circuit",
         &grid,
@@ -387,37 +395,73 @@ const ONE_LAYER_ERROR_RATIO: f64 = 8.0;
 /// count at speed, so this change is about three times the layer error). The two are added so
 /// that errors of opposite sign in the two directions cannot hide each other. When the tube is
 /// too short for a doubled ring, that part is zero.
-fn inductive_companions(
+fn companion_runs(
     design: &Design,
     limits: &Limits,
     plan: &Plan,
     grid: &RingGrid,
     ctx: &QuasiStaticContext<'_>,
-    outcome: &Outcome,
-) -> Result<f64, ModelError> {
+) -> Result<Companions, ModelError> {
     let c_max = ctx.profile.max_n_s_per_m();
     let rings2 = grid.rings / 2;
     if rings2 < 1 {
-        return radial_error_estimate(design, ctx.grid, ctx.c_mid_n_s_per_m, limits);
+        return radial_error_estimate(design, ctx.grid, ctx.c_mid_n_s_per_m, limits)
+            .map(Companions::Radial);
     }
     let dz2 = design.tube.length_m / rings2 as f64;
-    let axial = inductive_run_on(design, limits, plan, dz2, rings2, grid.layers, c_max)?;
-    let axial_change = headline_change(outcome, &axial);
-
     let half = grid.layers.div_ceil(2);
-    let radial_change = if half < grid.layers {
-        let radial = inductive_run_on(design, limits, plan, dz2, rings2, half, c_max)?;
-        // One mid-wall layer misses the inner surface: its error is an order of magnitude
-        // above that of two layers, so that change is scaled down.
-        if half == 1 {
-            headline_change(&axial, &radial) / ONE_LAYER_ERROR_RATIO
-        } else {
-            headline_change(&axial, &radial)
+    let (axial, radial) = rayon::join(
+        || inductive_run_on(design, limits, plan, dz2, rings2, grid.layers, c_max),
+        || {
+            (half < grid.layers)
+                .then(|| inductive_run_on(design, limits, plan, dz2, rings2, half, c_max))
+                .transpose()
+        },
+    );
+    Ok(Companions::Runs {
+        axial: Box::new(axial?),
+        radial: radial?.map(Box::new),
+        radial_layers: half,
+    })
+}
+
+/// The companions of an inductive run (see [`companion_runs`]).
+enum Companions {
+    /// The tube is too short for a doubled ring: the radial check of the quasi-static grid.
+    Radial(f64),
+    /// Twice the ring width with the same layers, and with `radial_layers` (half) layers.
+    Runs {
+        axial: Box<Outcome>,
+        radial: Option<Box<Outcome>>,
+        radial_layers: usize,
+    },
+}
+
+impl Companions {
+    /// The error estimate of the main run `outcome`: the axial change plus the radial change,
+    /// added so that errors of opposite sign cannot hide each other.
+    fn estimate(&self, outcome: &Outcome) -> f64 {
+        match self {
+            Self::Radial(e) => *e,
+            Self::Runs {
+                axial,
+                radial,
+                radial_layers,
+            } => {
+                let axial_change = headline_change(outcome, axial);
+                let radial_change = radial.as_ref().map_or(0.0, |radial| {
+                    // One mid-wall layer misses the inner surface: its error is an order of
+                    // magnitude above that of two layers, so that change is scaled down.
+                    if *radial_layers == 1 {
+                        headline_change(axial, radial) / ONE_LAYER_ERROR_RATIO
+                    } else {
+                        headline_change(axial, radial)
+                    }
+                });
+                axial_change + radial_change
+            }
         }
-    } else {
-        0.0
-    };
-    Ok(axial_change + radial_change)
+    }
 }
 
 /// The model block of an inductive run: the ring grid, the smallest step, the step count and
