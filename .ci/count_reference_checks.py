@@ -9,7 +9,8 @@
 
 - Assertions: lines with assert!, assert_eq!, assert_ne!, prop_assert!, prop_assert_eq! in
   model/tests/*.rs, service/tests/*.rs, tests/api/*.rs and the #[cfg(test)] modules of
-  model/src and service/src (from the line `#[cfg(test)]` to the end of the file). Helper
+  model/src and service/src (from the line `#[cfg(test)]` to the end of the file, or the whole
+  file when it is declared `#[cfg(test)] mod name;`, e.g. model/src/kernels/tests.rs). Helper
   assertions that only check the shape of a response (assert_standing_caution_first and the
   like) are counted where they are written, once.
 - The tag of an assertion: the comment text (//, ///, //!) between the previous assertion
@@ -72,10 +73,34 @@ def classify(text):
     return "untagged"
 
 
+def test_only_files():
+    """Files declared as `#[cfg(test)] mod name;` (a whole file of unit tests)."""
+    found = set()
+    for sub in ("model/src", "service/src"):
+        for dirpath, _, names in os.walk(os.path.join(ROOT, sub)):
+            for name in names:
+                if not name.endswith(".rs"):
+                    continue
+                with open(os.path.join(dirpath, name), encoding="utf-8") as f:
+                    text = f.read()
+                stem = name[:-3]
+                base = dirpath if stem in ("lib", "main", "mod") else os.path.join(dirpath, stem)
+                for child in re.findall(r"#\[cfg\(test\)\]\s*mod\s+(\w+)\s*;", text):
+                    found.add(os.path.normpath(os.path.join(base, child + ".rs")))
+                    found.add(os.path.normpath(os.path.join(base, child, "mod.rs")))
+    return found
+
+
+TEST_ONLY = None
+
+
 def count_file(path, unit_only):
+    global TEST_ONLY
+    if TEST_ONLY is None:
+        TEST_ONLY = test_only_files()
     with open(path, encoding="utf-8") as f:
         lines = f.read().splitlines()
-    if unit_only:
+    if unit_only and os.path.normpath(path) not in TEST_ONLY:
         start = next((i for i, l in enumerate(lines) if l.strip() == "#[cfg(test)]"), None)
         if start is None:
             return {}

@@ -141,11 +141,19 @@ pub fn weakness(key: &[u8]) -> Option<String> {
 
 impl ApiKeys {
     /// Keys from a comma-separated list (`RINGDRAG_API_KEYS`); empty items are skipped.
+    ///
+    /// # Errors
+    ///
+    /// The text of the first key that is too short or too weak to accept.
     pub fn from_list(text: &str) -> Result<Self, String> {
         Self::from_items(text.split(','))
     }
 
     /// Keys from the text of a key file: one per line, blank lines and `#` comments skipped.
+    ///
+    /// # Errors
+    ///
+    /// The text of the first key that is too short or too weak to accept.
     pub fn from_file_text(text: &str) -> Result<Self, String> {
         Self::from_items(text.lines().filter(|l| !l.trim_start().starts_with('#')))
     }
@@ -164,6 +172,11 @@ impl ApiKeys {
 
     /// Reads a key file. A file that holds no key is an error: whoever named it meant to
     /// protect the service, and it must not start open by accident.
+    ///
+    /// # Errors
+    ///
+    /// A message when the file cannot be read, holds no key, or holds a key that is too short
+    /// or too weak.
     pub fn from_file(path: &std::path::Path) -> Result<Self, String> {
         let text = std::fs::read_to_string(path)
             .map_err(|e| format!("cannot read the API key file {}: {e}", path.display()))?;
@@ -326,6 +339,11 @@ pub fn challenge(wrong_key: bool) -> HeaderValue {
 
 /// Parses one allowed origin: `scheme://host[:port]`, exactly as browsers send it in the
 /// `Origin` header (no path, no trailing slash, no wildcard).
+///
+/// # Errors
+///
+/// A message when the text is not an http or https origin with a host and an optional port
+/// only.
 pub fn parse_origin(text: &str) -> Result<HeaderValue, String> {
     let origin = text.trim();
     let Some((scheme, rest)) = origin.split_once("://") else {
@@ -353,6 +371,10 @@ pub struct Origins(pub Vec<HeaderValue>);
 
 impl Origins {
     /// Parses the comma-separated allow-list of `RINGDRAG_CORS_ORIGINS`.
+    ///
+    /// # Errors
+    ///
+    /// The message of [`parse_origin`] for the first item that is not a plain origin.
     pub fn parse(text: &str) -> Result<Self, String> {
         text.split(',')
             .map(str::trim)

@@ -134,6 +134,10 @@ impl RateLimiter {
 
     /// Takes a token for `client` at time `now`: `Ok` with the tokens left, or `Err` with the
     /// seconds until the next token (at least 1).
+    ///
+    /// # Errors
+    ///
+    /// The seconds until the client's next token (at least 1) when its bucket is empty.
     pub fn take(&self, client: ClientId, now: Instant) -> Result<u32, u64> {
         let mut table = self.inner.lock().unwrap_or_else(PoisonError::into_inner);
         let (burst, capacity) = (self.burst, self.capacity);
@@ -151,6 +155,10 @@ impl RateLimiter {
 
     /// Whether `client` has a token at `now`, without taking it (and without tracking a
     /// client not seen before): `Err` with the seconds until it has one.
+    ///
+    /// # Errors
+    ///
+    /// The seconds until the client has a token (at least 1) when its bucket is empty.
     pub fn check(&self, client: ClientId, now: Instant) -> Result<(), u64> {
         let table = self.inner.lock().unwrap_or_else(PoisonError::into_inner);
         match table.buckets.get(&client) {

@@ -15,6 +15,10 @@ const DURATION_BUCKETS_S: [f64; 15] = [
 ];
 
 /// Installs the global log subscriber.
+///
+/// # Errors
+///
+/// When a global log subscriber is already installed.
 pub fn init_tracing(format: LogFormat) -> anyhow::Result<()> {
     let filter = EnvFilter::try_from_default_env().unwrap_or_else(|_| EnvFilter::new("info"));
     let builder = tracing_subscriber::fmt()
@@ -33,6 +37,10 @@ pub fn init_tracing(format: LogFormat) -> anyhow::Result<()> {
 }
 
 /// Installs the global metrics recorder and describes the service's metrics.
+///
+/// # Errors
+///
+/// When the Prometheus recorder cannot be built or a global recorder is already installed.
 pub fn install_metrics() -> anyhow::Result<PrometheusHandle> {
     let handle = PrometheusBuilder::new()
         .set_buckets_for_metric(

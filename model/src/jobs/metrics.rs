@@ -140,6 +140,9 @@ pub struct Evaluation {
 
 /// The values of `metrics` for one design, in the order asked. A steady solver built for the
 /// same magnets and tube may be passed in to be reused.
+///
+/// # Errors
+/// Work beyond `limits`, cancellation, or a stroke that cannot run.
 pub fn evaluate(
     design: &Design,
     metrics: &[Metric],

@@ -226,6 +226,9 @@ pub fn work_per_combination(judge: &Judge) -> usize {
 impl SelectionPlan {
     /// Checks the stock (non-empty lists, costs finite and not negative, counts whole and in
     /// range) and the work against `limits.max_sweep_points`, naming the lists that drive it.
+    ///
+    /// # Errors
+    /// A stock, load or cost that is not valid (naming the field), or more combinations than the work limit allows.
     pub fn new(
         stock: Stock,
         load: LoadSpec,
@@ -496,6 +499,9 @@ impl SelectionPlan {
     /// Judges every combination (in parallel) and ranks the feasible ones. Combinations not
     /// yet started are skipped once `keep_going` answers false, and the job reports
     /// [`ModelError::Cancelled`].
+    ///
+    /// # Errors
+    /// Cancellation (`keep_going` answering false or the judge's token firing).
     pub fn run_while(
         &self,
         keep_going: &(dyn Fn() -> bool + Sync),

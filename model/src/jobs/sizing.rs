@@ -129,12 +129,18 @@ impl Search<'_> {
 }
 
 /// Sizes one field. See the module documentation for the rules.
+///
+/// # Errors
+/// As [`size_while`].
 pub fn size(req: &SizeRequest, limits: &Limits) -> Result<SizeResult, ModelError> {
     size_while(req, limits, &|| true)
 }
 
 /// Like [`size`], but gives up with [`ModelError::Cancelled`] before the next design
 /// evaluation once `keep_going` answers false (a caller whose deadline has passed).
+///
+/// # Errors
+/// An unknown path or range (`vary.*`), invalid targets, safety factor, hot temperature or tolerances, a base design that is not valid, work beyond `limits`, or cancellation.
 pub fn size_while(
     req: &SizeRequest,
     limits: &Limits,

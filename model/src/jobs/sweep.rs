@@ -111,6 +111,9 @@ fn point_cost(metrics: &[Metric], stroke: &StrokeOptions) -> usize {
 impl SweepPlan {
     /// Checks the axes (1 to 3, known numeric paths, distinct, finite values), the metrics
     /// (at least one, distinct) and the size of the job against `limits`.
+    ///
+    /// # Errors
+    /// Axes, metrics or a size outside the rules above, naming the field (`vary`, `metrics`).
     pub fn new(
         base: DesignSpec,
         axes: Vec<SweepAxis>,

@@ -151,6 +151,9 @@ impl SizeTarget {
 
     /// Checks that at least one target is given and every limit is finite and positive,
     /// naming fields under `at` (e.g. `target`).
+    ///
+    /// # Errors
+    /// A target that is not a finite positive number, or a minimum above a maximum, naming it under `at`.
     pub fn check(&self, at: &str) -> Result<(), ModelError> {
         let bounds = self.bounds();
         if bounds.is_empty() {
@@ -262,6 +265,9 @@ impl Judge {
     /// A judge for `target` with safety factor `safety_factor` (1 to 10), hot condition
     /// `hot_temperature_c` and optional tolerances; strokes run with `stroke`. Validates the
     /// targets (under `target`), the safety factor, the hot temperature and the tolerances.
+    ///
+    /// # Errors
+    /// Invalid safety factor, hot temperature, targets or tolerances, naming the field.
     pub fn new(
         target: &SizeTarget,
         safety_factor: f64,
@@ -401,6 +407,9 @@ impl Judge {
     /// Judges one design at every condition (conditions in parallel). Fails only when the
     /// nominal design is not valid or `keep_going` answers false; a failing corner fails its
     /// targets.
+    ///
+    /// # Errors
+    /// The nominal design is not valid, or the job was cancelled.
     pub fn judge(
         &self,
         spec: &DesignSpec,

@@ -107,7 +107,7 @@ mod tests {
         assert!((complete_k(0.0) - PI / 2.0).abs() < 1e-15);
         assert!((complete_e(0.0) - PI / 2.0).abs() < 1e-15);
         // E(1) = 1: the defining integral with m = 1 (source: Abramowitz & Stegun 17.3.3, from
-        // memory; 17.3.13 is Legendre's relation, checked in tests/properties.rs).
+        // memory; 17.3.13 is Legendre's relation, checked in kernels/properties.rs).
         assert!((complete_e(1.0 - 1e-300) - 1.0).abs() < 1e-12);
     }
 }

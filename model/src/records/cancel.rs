@@ -79,6 +79,11 @@ impl CancelToken {
     }
 
     /// `Err(ModelError::Cancelled)` once cancelled, for `?` in solver loops.
+    ///
+    /// # Errors
+    ///
+    /// [`ModelError::Cancelled`] once the token has been tripped (deadline passed or client
+    /// gone).
     pub fn check(&self) -> Result<(), ModelError> {
         if self.is_cancelled() {
             Err(ModelError::Cancelled)

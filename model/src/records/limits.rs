@@ -133,6 +133,11 @@ pub struct Limits {
     pub tables: TableCache,
 }
 
+/// Largest band storage of one factorised window matrix of the stroke solver, entries (16 MB
+/// of f64; up to four factors are cached per run). It also bounds the work of one step to
+/// about 4x this many multiply-adds.
+pub const MAX_BAND_ENTRIES: usize = 2 << 20;
+
 impl Default for Limits {
     fn default() -> Self {
         Self {
@@ -143,7 +148,7 @@ impl Default for Limits {
             max_samples: 20_000,
             max_radial_layers: 32,
             max_sweep_points: 10_000,
-            max_band_entries: crate::solvers::transient::MAX_BAND_ENTRIES,
+            max_band_entries: MAX_BAND_ENTRIES,
             max_table_entries: 1 << 22,
             max_kernel_evaluations: 20_000_000,
             max_quadrature_terms: 100_000_000,
@@ -171,6 +176,10 @@ impl Limits {
     }
 
     /// Checks `value <= cap`, naming `path` otherwise.
+    ///
+    /// # Errors
+    ///
+    /// [`ModelError::TooLarge`] naming `path` when `value` exceeds `cap`.
     pub fn check(path: &str, what: &str, value: usize, cap: usize) -> Result<(), ModelError> {
         if value > cap {
             Err(ModelError::TooLarge {

@@ -515,6 +515,11 @@ pub enum LookupError {
 /// Finds a conductor by id (case-insensitive; spaces and underscores read as hyphens, and the
 /// American spelling `aluminum` as `aluminium`). Ferromagnetic materials are recognised and
 /// refused with [`LookupError::Ferromagnetic`]; austenitic stainless 304 is in the table.
+///
+/// # Errors
+///
+/// [`LookupError::Unknown`] when no row has the id, [`LookupError::Ferromagnetic`] when it
+/// names a ferromagnetic material (outside the model).
 pub fn find_conductor(id: &str) -> Result<&'static Conductor, LookupError> {
     let wanted = conductor_spelling(id);
     if let Some(row) = CONDUCTORS.iter().find(|c| c.id == wanted) {

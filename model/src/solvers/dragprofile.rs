@@ -19,7 +19,7 @@ use crate::records::error::ModelError;
 use crate::records::limits::Limits;
 use crate::solvers::rings::fluxtable::{FluxTable, POINTS_PER_RING, cubic_weights};
 use crate::solvers::rings::grid::RingGrid;
-use crate::solvers::transient::window_half_length_m;
+use crate::solvers::rings::grid::window_half_length_m;
 
 /// Positions per ring width at which c(x) is tabulated.
 pub const PROFILE_POINTS_PER_RING: i64 = 4;

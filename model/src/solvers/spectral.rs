@@ -696,6 +696,9 @@ fn default_speeds(terminal: Option<f64>, critical: f64) -> Vec<f64> {
 
 /// The steady force-speed curve of `design` in a long tube, with damping coefficient, peak
 /// force, critical speed, terminal speed for the design's load and a resolution check.
+///
+/// # Errors
+/// Invalid speeds or layer count (naming `speeds_m_per_s` or `resolution.radial_layers`), work beyond `limits`, or cancellation.
 pub fn force_curve(
     design: &Design,
     opts: &ForceCurveOptions,

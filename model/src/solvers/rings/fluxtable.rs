@@ -122,6 +122,9 @@ impl TableCost {
     }
 
     /// Refuses a tabulation above `limits`, naming the design field that drives its size.
+    ///
+    /// # Errors
+    /// [`ModelError::TooLarge`] naming the design field that drives the size.
     pub fn check(
         &self,
         stack: &MagnetStack,
@@ -200,6 +203,9 @@ impl FluxTable {
     /// geometry (stack ends and radii, grid and reach) is taken from the cache and scaled by
     /// the stack's surface current: the table is linear in it, so conditions that differ only
     /// in remanence, temperature or conductivity share one tabulation.
+    ///
+    /// # Errors
+    /// The tabulation would exceed `limits` ([`ModelError::TooLarge`]), or the job was cancelled.
     pub fn checked(
         stack: &MagnetStack,
         grid: &RingGrid,

@@ -300,3 +300,30 @@ impl RingGrid {
         }
     }
 }
+
+/// Margin of the current-carrying window beyond each end of the stack, in outer radii of the
+/// tube. The stack's dPhi/dzeta falls off as d^-4 and the dissipation as d^-8, so rings beyond
+/// it carry a negligible share (the dropped energy is counted and reported).
+pub const WINDOW_MARGIN_OUTER_RADII: f64 = 5.0;
+
+/// The window is widened behind the stack by this many current decay lengths v tau, with
+/// tau = mu0 sigma w r / 2 the slowest (uniform-current) time constant of a thin tube, so that
+/// the wake of a fast stack stays inside it.
+pub const WAKE_DECAY_LENGTHS: f64 = 3.0;
+
+/// Half-length of the current-carrying window around the stack centre, m: half the stack,
+/// the margin, and the wake at `speed_m_per_s`.
+pub fn window_half_length_m(design: &Design, speed_m_per_s: f64) -> f64 {
+    let b = design.tube.outer_radius_m;
+    0.5 * design.magnets.total_length_m()
+        + WINDOW_MARGIN_OUTER_RADII * b
+        + WAKE_DECAY_LENGTHS * speed_m_per_s.abs() * slowest_time_constant_s(design)
+}
+
+/// Slowest current decay time of the tube, mu0 sigma w r_mean / 2, s (uniform azimuthal current
+/// in a thin tube: L' = mu0 pi r^2, R' = 2 pi r / (sigma w) per unit length).
+pub fn slowest_time_constant_s(design: &Design) -> f64 {
+    let t = &design.tube;
+    let r = 0.5 * (t.inner_radius_m + t.outer_radius_m);
+    0.5 * MU0 * t.conductivity_s_per_m * t.wall_thickness_m() * r
+}

@@ -507,6 +507,9 @@ pub struct ConstantSpeedForce {
 /// (currents starting at zero) with `steps_per_ring` BDF2 steps per ring width, until the
 /// currents are steady, and returns the braking force averaged over the last eight ring pitches
 /// (the ring ripple cancels over whole pitches).
+///
+/// # Errors
+/// A speed or step count that is not positive, a window or band beyond `limits` ([`ModelError::TooLarge`]), a matrix that is not positive definite, or cancellation.
 pub fn constant_speed_force(
     design: &Design,
     speed_m_per_s: f64,
