@@ -52,7 +52,6 @@ pub use inductive::{ConstantSpeedForce, constant_speed_force};
 #[cfg(feature = "dense-reference")]
 pub use reference::simulate_stroke_dense_reference;
 
-use crate::MU0;
 use crate::records::caution::{Caution, CautionKind, push_unique};
 use crate::records::design::Design;
 use crate::records::error::ModelError;
@@ -64,28 +63,13 @@ use crate::solvers::rings::fluxtable::FluxTable;
 use crate::solvers::rings::grid::RingGrid;
 use crate::solvers::spectral::SteadySolver;
 use inductive::inductive_path;
-use plan::{plan, validate};
+pub use plan::{
+    AUTO_INDUCTIVE_REYNOLDS, ExpectedSpeeds, STEP_FRACTION, expected_speeds,
+    magnetic_reynolds_number, quasi_static_overstatement,
+};
+use plan::{QuasiStaticContext, overstatement_note, plan, runaway_cautions, validate};
 use quasistatic::quasi_static_path;
 use summary::assemble;
-
-/// `Auto` chooses the inductive model above this magnetic Reynolds number mu0 sigma v w at the
-/// expected largest speed in the tube. Measured with [`constant_speed_force`] against the
-/// quasi-static c_mid v of the same discretisation, on four invented geometries (12 mm N42
-/// magnet, 20 mm or 4 mm long, in a 13 mm bore copper tube with 0.5, 1.5 or 5 mm wall): the
-/// quasi-static model overstates the steady braking by about 0.1 Rm^2 - by 0.06 to 0.12 % at
-/// Rm = 0.1, 0.24 to 0.49 % at 0.2, and 1.0 to 1.9 % at 0.4. At 0.1 the quasi-static error
-/// stays below the ring discretisation's own (about 0.1 %), while the quasi-static run costs a
-/// fraction of a millisecond against tens of milliseconds.
-pub const AUTO_INDUCTIVE_REYNOLDS: f64 = 0.1;
-
-/// Relative overstatement of steady braking by the quasi-static model at magnetic Reynolds
-/// number `rm`, the measured law behind [`AUTO_INDUCTIVE_REYNOLDS`] (upper end of the range).
-pub fn quasi_static_overstatement(rm: f64) -> f64 {
-    0.12 * rm * rm
-}
-
-/// The stack moves at most about this fraction of a ring width per step.
-pub const STEP_FRACTION: f64 = 0.5;
 
 /// The default cap on one factorised window matrix, kept with the other work limits.
 pub use crate::records::limits::MAX_BAND_ENTRIES;
@@ -93,60 +77,6 @@ pub use crate::records::limits::MAX_BAND_ENTRIES;
 /// The window reach and the tube's slowest time constant live with the ring grid, which the
 /// drag profile shares (so that `dragprofile` need not import this module).
 pub use crate::solvers::rings::grid::{slowest_time_constant_s, window_half_length_m};
-
-/// Magnetic Reynolds number mu0 sigma v w of the wall at `speed_m_per_s`.
-pub fn magnetic_reynolds_number(design: &Design, speed_m_per_s: f64) -> f64 {
-    MU0 * design.tube.conductivity_s_per_m * speed_m_per_s.abs() * design.tube.wall_thickness_m()
-}
-
-/// Speeds expected in a stroke, m/s, from the start speed, free flight to the entry, the
-/// quasi-static terminal speed F/c_mid and free flight beyond the exit.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct ExpectedSpeeds {
-    /// Largest speed expected while the stack is in the tube.
-    pub in_tube_m_per_s: f64,
-    /// Largest speed expected anywhere in the run (exit fall included).
-    pub overall_m_per_s: f64,
-}
-
-/// Expected speeds of a stroke of `design` from (`x0_m`, `v0_m_per_s`), with the long-tube
-/// quasi-static damping `c_mid_n_s_per_m`.
-pub fn expected_speeds(
-    design: &Design,
-    x0_m: f64,
-    v0_m_per_s: f64,
-    c_mid_n_s_per_m: f64,
-) -> ExpectedSpeeds {
-    let m = design.moving_mass_kg();
-    let net = design.drive_force_n() - design.friction_force_n();
-    let a = net / m;
-    let v0 = v0_m_per_s.abs();
-    let ls = design.magnets.total_length_m();
-    let lt = design.tube.length_m;
-    if a <= 0.0 {
-        return ExpectedSpeeds {
-            in_tube_m_per_s: v0,
-            overall_m_per_s: v0,
-        };
-    }
-    let fall = |v: f64, d: f64| (v * v + 2.0 * a * d.max(0.0)).sqrt();
-    let bound = fall(v0, lt + ls - x0_m);
-    let entry = fall(v0, -x0_m);
-    let terminal = if c_mid_n_s_per_m > 0.0 {
-        net / c_mid_n_s_per_m
-    } else {
-        f64::INFINITY
-    };
-    let in_tube = entry
-        .max(terminal.min(fall(v0, lt - x0_m)))
-        .max(v0)
-        .min(bound);
-    let overall = fall(in_tube, ls).min(bound).max(in_tube);
-    ExpectedSpeeds {
-        in_tube_m_per_s: in_tube,
-        overall_m_per_s: overall,
-    }
-}
 
 /// Simulates one stroke of `design` through its finite tube.
 ///
@@ -238,64 +168,4 @@ pub fn simulate_stroke_with(
     };
     let runaway = runaway_cautions(design, &plan, limits, steady)?;
     Ok(assemble(design, &plan, outcome, info, cautions, runaway))
-}
-
-/// Runaway and the margin against it are the design's, decided from the steady curve as on
-/// every other endpoint: from `steady` when given, else from a solver built within `limits`.
-/// A solver that cannot be built within the limits leaves these cautions out (the stroke
-/// itself shows what happens); cancellation is passed on.
-fn runaway_cautions(
-    design: &Design,
-    plan: &plan::Plan,
-    limits: &Limits,
-    steady: Option<&SteadySolver>,
-) -> Result<Vec<Caution>, ModelError> {
-    if plan.mech.drive_n - plan.mech.friction_n <= 0.0 {
-        return Ok(Vec::new());
-    }
-    let own;
-    let solver = match steady {
-        Some(s) => s,
-        None => match SteadySolver::new_within(design, None, limits) {
-            Ok(s) => {
-                own = s;
-                &own
-            }
-            Err(ModelError::Cancelled) => return Err(ModelError::Cancelled),
-            Err(_) => return Ok(Vec::new()),
-        },
-    };
-    let m = solver.metrics(design);
-    Ok(crate::records::caution::steady_load_cautions(
-        m.drive_force_n,
-        m.peak_force_n,
-        m.critical_speed_m_per_s,
-        m.terminal_speed_m_per_s,
-    ))
-}
-
-/// The quasi-static pieces built for every stroke (also used for the expected speed).
-struct QuasiStaticContext<'a> {
-    pub(super) grid: &'a RingGrid,
-    pub(super) table: &'a FluxTable,
-    pub(super) profile: &'a DragProfile,
-    pub(super) base_reach_m: f64,
-    pub(super) c_mid_n_s_per_m: f64,
-    pub(super) reynolds: f64,
-}
-
-/// What the quasi-static model misses at magnetic Reynolds number `rm`, in words.
-fn overstatement_note(rm: f64) -> String {
-    if rm <= 0.5 {
-        format!(
-            "At magnetic Reynolds number {rm:.2} it neglects the eddy currents' own field and \
-             overstates braking by roughly {:.1} %.",
-            100.0 * quasi_static_overstatement(rm)
-        )
-    } else {
-        format!(
-            "At magnetic Reynolds number {rm:.2} it neglects the eddy currents' own field and \
-             overstates braking by several percent or more; it also misses the force peak."
-        )
-    }
 }

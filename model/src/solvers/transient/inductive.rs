@@ -7,10 +7,10 @@
 use super::circuit::RingCircuit;
 use super::plan::{MIN_STEPS_PER_MAX_TIME, too_many_steps};
 use super::plan::{Outcome, Plan, headline_change, start_acceleration, step_for_distance};
+use super::plan::{QuasiStaticContext, STEP_FRACTION};
 use super::quasistatic::radial_error_estimate;
 use super::run::{Recorder, StepRecord, Tally};
 use super::stepper::{Stepper, WindowMode, window_capacity_rings};
-use super::{QuasiStaticContext, STEP_FRACTION, slowest_time_constant_s, window_half_length_m};
 use crate::records::caution::{Caution, CautionKind, push_unique};
 use crate::records::design::Design;
 use crate::records::error::ModelError;
@@ -19,6 +19,7 @@ use crate::records::report::{Discretisation, Fidelity, ModelInfo};
 use crate::records::stroke::StrokeOptions;
 use crate::solvers::rings::fluxtable::FluxTable;
 use crate::solvers::rings::grid::{self, RingGrid};
+use crate::solvers::rings::grid::{slowest_time_constant_s, window_half_length_m};
 
 /// The inductive step may grow to this many times the ring-width step (STEP_FRACTION of a
 /// ring) where the estimated local error of the braking force stays below

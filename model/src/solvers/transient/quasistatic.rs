@@ -3,13 +3,12 @@
 //! ([`crate::solvers::dragprofile`]), trapezoidal in v (implicit), Coulomb friction implicit;
 //! its resolution check repeats the run at twice the ring width and step.
 
+use super::plan::{AUTO_INDUCTIVE_REYNOLDS, QuasiStaticContext, STEP_FRACTION, overstatement_note};
 use super::plan::{
     MIN_STEPS_PER_MAX_TIME, Outcome, Plan, headline_change, start_acceleration, step_for_distance,
     too_many_steps,
 };
 use super::run::{Recorder, StepRecord, Tally};
-use super::window_half_length_m;
-use super::{AUTO_INDUCTIVE_REYNOLDS, QuasiStaticContext, STEP_FRACTION, overstatement_note};
 use crate::records::caution::{Caution, CautionKind, push_unique};
 use crate::records::design::Design;
 use crate::records::error::ModelError;
@@ -18,6 +17,7 @@ use crate::records::report::{Discretisation, Fidelity, ModelInfo};
 use crate::solvers::dragprofile::DragProfile;
 use crate::solvers::rings::fluxtable::FluxTable;
 use crate::solvers::rings::grid::RingGrid;
+use crate::solvers::rings::grid::window_half_length_m;
 
 /// The quasi-static step also resolves the mechanical time constant m / c: dt <= this x m / c.
 const QS_MECHANICAL_FRACTION: f64 = 0.5;

@@ -7,7 +7,6 @@ use super::inductive::{check_band, ring_circuit_info, run_inductive};
 use super::plan::{plan, validate};
 use super::stepper::WindowMode;
 use super::summary::assemble;
-use super::window_half_length_m;
 use crate::records::caution::Caution;
 use crate::records::design::Design;
 use crate::records::error::ModelError;
@@ -16,6 +15,7 @@ use crate::records::stroke::{Stroke, StrokeOptions};
 use crate::solvers::dragprofile::DragProfile;
 use crate::solvers::rings::fluxtable::FluxTable;
 use crate::solvers::rings::grid::RingGrid;
+use crate::solvers::rings::grid::window_half_length_m;
 
 /// The naive dense reference of the inductive stroke, for benchmarks and tests only: the same
 /// discretisation, time stepping and step control, but every ring of the tube carries current,
@@ -77,7 +77,7 @@ pub fn simulate_stroke_dense_reference(
     );
     info.error_estimate_relative = Some(err);
     let cautions = vec![Caution::standing_safety()];
-    let runaway = super::runaway_cautions(design, &plan, limits, None)?;
+    let runaway = super::plan::runaway_cautions(design, &plan, limits, None)?;
     Ok((
         assemble(design, &plan, outcome, info, cautions, runaway),
         factors,

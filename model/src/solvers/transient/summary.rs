@@ -2,12 +2,12 @@
 //! and its margin, reduced steps, dropped currents, numerical error, heating).
 
 use super::plan::{Outcome, Plan};
-use super::window_half_length_m;
 use crate::records::caution::{Caution, CautionKind, push_unique};
 use crate::records::design::Design;
 use crate::records::report::{Fidelity, ModelInfo};
 use crate::records::stroke::{Stroke, StrokeEnd, StrokeSummary};
 use crate::solvers::heat;
+use crate::solvers::rings::grid::window_half_length_m;
 
 /// The stroke record of a run: summary, heat, and the cautions of the run added to
 /// `cautions` (runaway and its margin from `runaway`).
