@@ -643,3 +643,31 @@ fn a_stroke_ends_at_the_users_stop_and_reports_the_landing() {
         other => panic!("expected a refusal, got {other:?}"),
     }
 }
+
+#[test]
+fn the_same_stroke_computed_twice_agrees_to_the_bit() {
+    // The model has no parallel or order-dependent reduction inside a stroke: the same
+    // request on another thread (as the service's job pool runs it) gives the same bits
+    // (source: common practice - a deterministic computation).
+    let d = copper(0.3, "{}");
+    let bits = |s: &Stroke| -> Vec<u64> {
+        let m = &s.summary;
+        let mut v = vec![
+            m.max_braking_force_n.to_bits(),
+            m.heat_j.to_bits(),
+            m.end_time_s.to_bits(),
+            m.end_speed_m_per_s.to_bits(),
+        ];
+        v.extend(s.series.speed_m_per_s.iter().map(|x| x.to_bits()));
+        v.extend(s.series.force_n.iter().map(|x| x.to_bits()));
+        v
+    };
+    for fidelity in [Fidelity::QuasiStatic, Fidelity::Inductive] {
+        let here = bits(&run(&d, -0.03, 0.0, fidelity));
+        let d2 = d.clone();
+        let there = std::thread::spawn(move || bits(&run(&d2, -0.03, 0.0, fidelity)))
+            .join()
+            .expect("thread");
+        assert_eq!(here, there, "{fidelity:?}");
+    }
+}

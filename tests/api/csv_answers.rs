@@ -89,13 +89,16 @@ async fn a_stroke_as_csv_has_the_series_columns() {
         num(&last[0]),
         json["series"]["time_s"][n - 1].as_f64().expect("time")
     );
-    // The CSV and JSON answers are two computations of the same stroke; they agree to
-    // rounding (common practice: 1e-12 relative; the last bit may differ between runs).
+    // The CSV and JSON answers are two computations of the same stroke: the model is
+    // deterministic, and both formats write the shortest representation that reads back to
+    // the same f64 (JSON read with serde_json's correctly rounded `float_roundtrip` parser), so
+    // they agree to the bit (source: common practice - shortest round-trip formatting).
     let speed = json["series"]["speed_m_per_s"][n - 1]
         .as_f64()
         .expect("speed");
-    assert!(
-        (num(&last[2]) - speed).abs() <= 1e-12 * speed.abs(),
+    assert_eq!(
+        num(&last[2]).to_bits(),
+        speed.to_bits(),
         "{} vs {speed}",
         num(&last[2])
     );

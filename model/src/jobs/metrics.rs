@@ -6,7 +6,7 @@ use crate::records::design::Design;
 use crate::records::error::ModelError;
 use crate::records::limits::Limits;
 use crate::records::stroke::{StrokeOptions, StrokeSummary};
-use crate::solvers::spectral::{SteadyMetrics, SteadySolver};
+use crate::solvers::spectral::{Resolution, SteadyMetrics, SteadySolver};
 use serde::{Deserialize, Serialize};
 
 /// A scalar result that sweeps and sizing can report.
@@ -271,7 +271,7 @@ pub fn evaluate(
     Ok(evaluate_with(design, metrics, stroke, limits, solver, None)?.values)
 }
 
-/// A steady solver and its resolution companion ([`SteadySolver::companion`]), built once and
+/// A steady solver and its resolution companion ([`Resolution::Companion`]), built once and
 /// shared by every design with the same magnets and tube.
 #[derive(Debug, Clone)]
 pub struct SteadyPair {
@@ -290,7 +290,7 @@ impl SteadyPair {
     pub fn new(design: &Design, limits: &Limits) -> Result<Self, ModelError> {
         Ok(Self {
             solver: SteadySolver::new_within(design, None, limits)?,
-            companion: SteadySolver::companion(design, None, limits)?,
+            companion: SteadySolver::at(design, None, Resolution::Companion, limits)?,
         })
     }
 }
@@ -360,11 +360,18 @@ fn evaluate_with(
     for c in &design.cautions {
         push_unique(&mut cautions, c.clone());
     }
-    let steady: Option<SteadyMetrics> = if metrics.iter().any(|m| m.needs_steady()) {
-        let m = match solver {
-            Some(s) => s.metrics(design),
-            None => SteadySolver::new_within(design, None, limits)?.metrics(design),
-        };
+    let own;
+    let solver = match solver {
+        Some(s) => Some(s),
+        None if metrics.iter().any(|m| m.needs_steady()) => {
+            own = SteadySolver::new_within(design, None, limits)?;
+            Some(&own)
+        }
+        None => None,
+    };
+    let needs_steady = metrics.iter().any(|m| m.needs_steady());
+    let steady: Option<SteadyMetrics> = if let Some(solver) = solver.filter(|_| needs_steady) {
+        let m = solver.metrics(design);
         if let Some(c) = companion {
             estimate = Some(crate::solvers::spectral::metrics_change(
                 &m,
@@ -384,7 +391,8 @@ fn evaluate_with(
         None
     };
     let summary: Option<StrokeSummary> = if metrics.iter().any(|m| m.needs_stroke()) {
-        let run = crate::solvers::transient::simulate_stroke(design, stroke, limits)?;
+        // The stroke reads runaway from the same steady solver instead of building another.
+        let run = crate::solvers::transient::simulate_stroke_with(design, stroke, limits, solver)?;
         if let Some(e) = run.model.error_estimate_relative {
             estimate = Some(estimate.map_or(e, |x| x.max(e)));
         }

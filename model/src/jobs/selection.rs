@@ -536,11 +536,14 @@ impl SelectionPlan {
         };
         let pruned = std::sync::atomic::AtomicUsize::new(0);
         let judged = std::sync::atomic::AtomicUsize::new(0);
-        let hot = self.judge.hot_temperature_c();
+        // One table cache for the job: candidates and their conditions share flux tables.
+        let judge = self.judge.with_job_cache();
+        let judge = &judge;
+        let hot = judge.hot_temperature_c();
         let found: Vec<Candidate> = groups
             .par_iter()
             .flat_map_iter(|&(a, b)| {
-                let shared = SharedSolvers::for_judge(&self.judge);
+                let shared = SharedSolvers::for_judge(judge);
                 let mut out = Vec::new();
                 // The steady bound is taken hot (braking weakest of the nominal conditions).
                 let mut bound_solver: Option<SteadySolver> = None;
@@ -580,7 +583,7 @@ impl SelectionPlan {
                         continue;
                     }
                     judged.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
-                    match self.judge.judge(&spec, Some(&shared), keep_going) {
+                    match judge.judge(&spec, Some(&shared), keep_going) {
                         Ok(v) if v.slack >= 0.0 => out.push(self.candidate(c, spec, &design, v)),
                         Ok(v) => reject(
                             if v.margins.get(&v.tightest).is_some_and(|m| *m == 0.0)

@@ -200,7 +200,9 @@ pub fn size_while(
         req.hot_temperature_c,
         req.tolerances.clone(),
         req.stroke.clone(),
-        limits.clone(),
+        // One table cache for the whole search: its evaluations and their conditions share
+        // the flux tables of every geometry they meet.
+        limits.with_job_cache(),
     )?;
     let mut search = Search {
         req,

@@ -288,6 +288,9 @@ impl SweepPlan {
         keep_going: impl Fn() -> bool + Sync + Send,
         sink: impl Fn(SweepPoint) + Sync + Send,
     ) {
+        // One table cache for the job: points of the same geometry share flux tables.
+        let limits = self.limits.with_job_cache();
+        let limits = &limits;
         let needs_steady = self.metrics.iter().any(|m| m.needs_steady());
         let groups = self.len() / self.group_size.max(1);
         let slots: Vec<(Mutex<Option<Arc<SteadyPair>>>, AtomicUsize)> = (0..groups)
@@ -303,7 +306,7 @@ impl SweepPlan {
             }
         };
         (0..self.len()).into_par_iter().for_each(|index| {
-            if !keep_going() || self.limits.cancel.is_cancelled() {
+            if !keep_going() || limits.cancel.is_cancelled() {
                 release(index);
                 return;
             }
@@ -314,7 +317,7 @@ impl SweepPlan {
                     let s = match guard.as_ref() {
                         Some(s) => Arc::clone(s),
                         None => {
-                            let s = Arc::new(SteadyPair::new(&design, &self.limits)?);
+                            let s = Arc::new(SteadyPair::new(&design, limits)?);
                             *guard = Some(Arc::clone(&s));
                             s
                         }
@@ -327,7 +330,7 @@ impl SweepPlan {
                     &design,
                     &self.metrics,
                     &self.stroke,
-                    &self.limits,
+                    limits,
                     solver.as_deref(),
                 )
             });

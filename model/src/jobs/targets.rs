@@ -428,6 +428,13 @@ impl Judge {
         self
     }
 
+    /// The same judge with a fresh table cache for one job (see `Limits::with_job_cache`).
+    pub fn with_job_cache(&self) -> Self {
+        let mut j = self.clone();
+        j.limits = self.limits.with_job_cache();
+        j
+    }
+
     /// The targets.
     pub fn bounds(&self) -> &[Bound] {
         &self.bounds

@@ -116,23 +116,49 @@ impl BandMatrix {
     }
 }
 
-/// (sum l x, sum l y) with four partial sums each.
+/// (sum l x, sum l y) with four partial sums each (in a fixed order, so the result does not
+/// depend on anything but the inputs). Chunked slices carry no bounds checks in the loop.
 fn dot2(l: &[f64], x: &[f64], y: &[f64]) -> (f64, f64) {
     let n = l.len().min(x.len()).min(y.len());
+    let (l, x, y) = (&l[..n], &x[..n], &y[..n]);
     let (mut a, mut b) = ([0.0_f64; 4], [0.0_f64; 4]);
-    let chunks = n / 4;
-    for c in 0..chunks {
-        let k = 4 * c;
+    let (lc, xc, yc) = (l.chunks_exact(4), x.chunks_exact(4), y.chunks_exact(4));
+    let (lr, xr, yr) = (lc.remainder(), xc.remainder(), yc.remainder());
+    for ((lq, xq), yq) in lc.zip(xc).zip(yc) {
         for q in 0..4 {
-            a[q] += l[k + q] * x[k + q];
-            b[q] += l[k + q] * y[k + q];
+            a[q] += lq[q] * xq[q];
+            b[q] += lq[q] * yq[q];
         }
     }
-    for k in 4 * chunks..n {
-        a[0] += l[k] * x[k];
-        b[0] += l[k] * y[k];
+    for ((lk, xk), yk) in lr.iter().zip(xr).zip(yr) {
+        a[0] += lk * xk;
+        b[0] += lk * yk;
     }
     ((a[0] + a[1]) + (a[2] + a[3]), (b[0] + b[1]) + (b[2] + b[3]))
+}
+
+/// y1 -= l x1 and y2 -= l x2 over equal-length slices, four at a time.
+fn axpy2(l: &[f64], x1: f64, x2: f64, y1: &mut [f64], y2: &mut [f64]) {
+    let n = l.len().min(y1.len()).min(y2.len());
+    let (l, y1, y2) = (&l[..n], &mut y1[..n], &mut y2[..n]);
+    let mut lc = l.chunks_exact(4);
+    let mut c1 = y1.chunks_exact_mut(4);
+    let mut c2 = y2.chunks_exact_mut(4);
+    for ((lq, p), q) in (&mut lc).zip(&mut c1).zip(&mut c2) {
+        for k in 0..4 {
+            p[k] -= lq[k] * x1;
+            q[k] -= lq[k] * x2;
+        }
+    }
+    for ((lk, p), q) in lc
+        .remainder()
+        .iter()
+        .zip(c1.into_remainder())
+        .zip(c2.into_remainder())
+    {
+        *p -= lk * x1;
+        *q -= lk * x2;
+    }
 }
 
 /// The Cholesky factor of a [`BandMatrix`], usable for every leading principal submatrix.
@@ -167,10 +193,7 @@ impl BandCholesky {
             b2[i] = x2;
             let j0 = i.saturating_sub(kd);
             let row = &d[i * w + kd - i + j0..i * w + kd - i + i];
-            for ((l, y1), y2) in row.iter().zip(&mut b1[j0..i]).zip(&mut b2[j0..i]) {
-                *y1 -= l * x1;
-                *y2 -= l * x2;
-            }
+            axpy2(row, x1, x2, &mut b1[j0..i], &mut b2[j0..i]);
         }
     }
 

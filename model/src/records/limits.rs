@@ -3,6 +3,96 @@
 //! that drives the size.
 
 use crate::records::cancel::CancelToken;
+use std::any::Any;
+use std::collections::HashMap;
+use std::sync::{Arc, Mutex};
+
+/// Largest number of f64 entries one job's cache holds, 32 MB; when a new value would pass it,
+/// the cache starts over.
+pub const JOB_CACHE_ENTRIES: usize = 1 << 22;
+
+/// A shared value of the cache.
+type Shared = Arc<dyn Any + Send + Sync>;
+
+/// The cache's contents by key (the solvers define keys and values: flux tables per geometry).
+#[derive(Default)]
+struct TableStore {
+    tables: HashMap<Vec<u64>, Shared>,
+    entries: usize,
+}
+
+impl std::fmt::Debug for TableStore {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("TableStore")
+            .field("values", &self.tables.len())
+            .field("entries", &self.entries)
+            .finish()
+    }
+}
+
+/// A job's cache of tabulated values (the solvers keep flux tables in it), shared by its
+/// clones (see [`Limits::tables`]). It holds any value type; the solver that stores a key
+/// reads it back as that type.
+#[derive(Debug, Clone, Default)]
+pub struct TableCache {
+    store: Option<Arc<Mutex<TableStore>>>,
+}
+
+impl TableCache {
+    /// An empty cache that keeps tables.
+    pub fn enabled() -> Self {
+        Self {
+            store: Some(Arc::new(Mutex::new(TableStore::default()))),
+        }
+    }
+
+    /// Whether this cache keeps tables.
+    pub fn is_enabled(&self) -> bool {
+        self.store.is_some()
+    }
+
+    /// The value of `key`, if kept and of type `T`.
+    pub(crate) fn get<T: Any + Send + Sync>(&self, key: &[u64]) -> Option<Arc<T>> {
+        let store = self.store.as_ref()?;
+        let guard = store.lock().unwrap_or_else(|p| p.into_inner());
+        guard.tables.get(key).cloned()?.downcast::<T>().ok()
+    }
+
+    /// Keeps `value` of `entries` f64 entries under `key` (a no-op for a disabled cache).
+    pub(crate) fn insert<T: Any + Send + Sync>(
+        &self,
+        key: Vec<u64>,
+        value: Arc<T>,
+        entries: usize,
+    ) {
+        let Some(store) = self.store.as_ref() else {
+            return;
+        };
+        let mut guard = store.lock().unwrap_or_else(|p| p.into_inner());
+        let n = entries;
+        if n > JOB_CACHE_ENTRIES {
+            return;
+        }
+        if guard.entries + n > JOB_CACHE_ENTRIES {
+            guard.tables.clear();
+            guard.entries = 0;
+        }
+        if guard.tables.insert(key, value).is_none() {
+            guard.entries += n;
+        }
+    }
+}
+
+/// Caches compare equal when both are disabled or both are the same job's.
+impl PartialEq for TableCache {
+    fn eq(&self, other: &Self) -> bool {
+        match (&self.store, &other.store) {
+            (None, None) => true,
+            (Some(a), Some(b)) => Arc::ptr_eq(a, b),
+            _ => false,
+        }
+    }
+}
 use crate::records::error::ModelError;
 
 /// Caps on the size of a job.
@@ -37,6 +127,10 @@ pub struct Limits {
     /// Stops the job cooperatively when its deadline passes or its caller goes away; the
     /// default never cancels.
     pub cancel: CancelToken,
+    /// Flux tables shared by the strokes of one job (sweep points, sizing evaluations,
+    /// selection candidates, tolerance corners); empty and unused unless the job asks for one
+    /// with [`Limits::with_job_cache`], so nothing is kept between jobs.
+    pub tables: TableCache,
 }
 
 /// Largest band storage of one factorised window matrix of the stroke solver, entries (16 MB
@@ -59,6 +153,7 @@ impl Default for Limits {
             max_kernel_evaluations: 20_000_000,
             max_quadrature_terms: 100_000_000,
             cancel: CancelToken::never(),
+            tables: TableCache::default(),
         }
     }
 }
@@ -68,6 +163,14 @@ impl Limits {
     pub fn with_cancel(&self, cancel: CancelToken) -> Self {
         Self {
             cancel,
+            ..self.clone()
+        }
+    }
+
+    /// These limits with a fresh table cache for one job (see [`Limits::tables`]).
+    pub fn with_job_cache(&self) -> Self {
+        Self {
+            tables: TableCache::enabled(),
             ..self.clone()
         }
     }

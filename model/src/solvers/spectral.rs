@@ -124,6 +124,16 @@ struct Node {
     time_scale: Vec<f64>,
 }
 
+/// The resolution a [`SteadySolver`] is built at.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Resolution {
+    /// The answer's own resolution.
+    Full,
+    /// The coarser companion whose change against the full solver is the error estimate
+    /// ([`metrics_change`]).
+    Companion,
+}
+
 /// Steady-state braking force of one design in a long tube, ready for any speed.
 #[derive(Debug, Clone)]
 pub struct SteadySolver {
@@ -174,26 +184,21 @@ impl SteadySolver {
         radial_layers: Option<usize>,
         limits: &Limits,
     ) -> Result<Self, ModelError> {
-        let layers = radial_layers.unwrap_or_else(|| default_layers(design));
-        if layers == 0 || layers > MAX_LAYERS {
-            return Err(ModelError::field(
-                "radial_layers",
-                format!("must be between 1 and {MAX_LAYERS}"),
-            ));
-        }
-        Self::build(design, layers, FINE, limits)
+        Self::at(design, radial_layers, Resolution::Full, limits)
     }
 
-    /// The resolution companion of the solver [`SteadySolver::new`] builds with
-    /// `radial_layers`: fewer layers and half the wavenumber density (see [`metrics_change`]),
-    /// within the work `limits`.
+    /// The solver of `design` at `resolution`: [`Resolution::Full`] with `radial_layers`
+    /// layers (default from [`default_layers`]), or its [`Resolution::Companion`] (fewer layers
+    /// and half the wavenumber density, see [`metrics_change`]), within the work `limits` and
+    /// stopping when their cancellation token fires.
     ///
     /// # Errors
-    /// [`ModelError::TooLarge`] for a layer count or work above the limits,
-    /// [`ModelError::Cancelled`] when the limits' token fires.
-    pub fn companion(
+    /// A layer count outside 1 ..= `MAX_LAYERS` (path `radial_layers`), work beyond `limits`,
+    /// or cancellation.
+    pub fn at(
         design: &Design,
         radial_layers: Option<usize>,
+        resolution: Resolution,
         limits: &Limits,
     ) -> Result<Self, ModelError> {
         let layers = radial_layers.unwrap_or_else(|| default_layers(design));
@@ -203,7 +208,10 @@ impl SteadySolver {
                 format!("must be between 1 and {MAX_LAYERS}"),
             ));
         }
-        Self::build(design, coarse_layers(layers), COARSE, limits)
+        match resolution {
+            Resolution::Full => Self::build(design, layers, FINE, limits),
+            Resolution::Companion => Self::build(design, coarse_layers(layers), COARSE, limits),
+        }
     }
 
     fn build(
@@ -627,7 +635,7 @@ fn stack_weights(design: &Design, kappas: &[f64], limits: &Limits) -> Result<Vec
 
 /// Error estimate of steady numbers: the largest relative change of damping, peak force,
 /// critical speed and terminal speed between a solve (`fine`) and its resolution companion
-/// (`coarse`, [`SteadySolver::companion`]). The layered force converges about as n^-3 in the
+/// (`coarse`, [`Resolution::Companion`]). The layered force converges about as n^-3 in the
 /// layer count with the slab correction, so the change from n - 2 layers (and half the
 /// wavenumber density) is well above the error of n layers.
 pub fn metrics_change(fine: &SteadyMetrics, coarse: &SteadyMetrics) -> f64 {
@@ -649,6 +657,25 @@ pub fn metrics_change(fine: &SteadyMetrics, coarse: &SteadyMetrics) -> f64 {
 /// Layers of the resolution companion of an `n`-layer solve.
 fn coarse_layers(n: usize) -> usize {
     n.saturating_sub(2).max(n.div_ceil(2)).max(1)
+}
+
+/// The model-limit caution of a clearance below what manufacturing can hold (the wavenumber
+/// reach is computed at [`MIN_MODEL_CLEARANCE_M`]).
+fn clearance_caution(design: &Design) -> Option<Caution> {
+    let clearance = design.clearance_m();
+    (clearance < MIN_MODEL_CLEARANCE_M).then(|| {
+        Caution::new(
+            CautionKind::ModelLimit,
+            format!(
+                "Radial clearance {} m is below the {} m that manufacturing can hold; the \
+                 wavenumber reach was computed as if the clearance were {} m, so the near field of \
+                 a nominal sub-micrometre gap is not resolved (braking may be understated).",
+                crate::records::error::show(clearance),
+                crate::records::error::show(MIN_MODEL_CLEARANCE_M),
+                crate::records::error::show(MIN_MODEL_CLEARANCE_M)
+            ),
+        )
+    })
 }
 
 /// An error estimate above this relative size raises a numerical caution.
@@ -690,10 +717,10 @@ pub fn force_curve(
         )?;
     }
     let layers = opts.radial_layers.unwrap_or_else(|| default_layers(design));
-    let solver = SteadySolver::build(design, layers, FINE, limits)?;
+    let solver = SteadySolver::at(design, Some(layers), Resolution::Full, limits)?;
     // The companion: two layers fewer and half the wavenumber density. The layered force
     // converges about as n^-3 in the layer count, so its change bounds the error of n layers.
-    let check = SteadySolver::build(design, coarse_layers(layers), COARSE, limits)?;
+    let check = SteadySolver::at(design, Some(layers), Resolution::Companion, limits)?;
     let metrics = solver.metrics(design);
     let SteadyMetrics {
         damping_n_s_per_m: damping,
@@ -723,20 +750,7 @@ pub fn force_curve(
     for c in &design.cautions {
         push_unique(&mut cautions, c.clone());
     }
-    let clearance = design.clearance_m();
-    if clearance < MIN_MODEL_CLEARANCE_M {
-        cautions.push(Caution::new(
-            CautionKind::ModelLimit,
-            format!(
-                "Radial clearance {} m is below the {} m that manufacturing can hold; the \
-                 wavenumber reach was computed as if the clearance were {} m, so the near field of \
-                 a nominal sub-micrometre gap is not resolved (braking may be understated).",
-                crate::records::error::show(clearance),
-                crate::records::error::show(MIN_MODEL_CLEARANCE_M),
-                crate::records::error::show(MIN_MODEL_CLEARANCE_M)
-            ),
-        ));
-    }
+    cautions.extend(clearance_caution(design));
     for c in crate::records::caution::steady_load_cautions(drive, peak, critical, terminal) {
         cautions.push(c);
     }

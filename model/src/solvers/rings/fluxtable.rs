@@ -78,6 +78,14 @@ pub struct RingAlignment {
     pub weights: [f64; 4],
 }
 
+/// Whether `value <= cap` (false for NaN).
+fn within(value: f64, cap: f64) -> bool {
+    matches!(
+        value.partial_cmp(&cap),
+        Some(std::cmp::Ordering::Less | std::cmp::Ordering::Equal)
+    )
+}
+
 /// Memory and work of one tabulation, estimated from the stack and the grid before anything
 /// is allocated (f64 arithmetic, so absurd designs cannot overflow the estimate).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -114,14 +122,18 @@ impl TableCost {
     }
 
     /// Refuses a tabulation above `limits`, naming the design field that drives its size.
+    ///
+    /// # Errors
+    /// [`ModelError::TooLarge`] naming the design field that drives the size.
     pub fn check(
         &self,
         stack: &MagnetStack,
         grid: &RingGrid,
         limits: &Limits,
     ) -> Result<(), ModelError> {
-        let entries_over = !(self.entries <= limits.max_table_entries as f64);
-        let work_over = !(self.evaluations <= limits.max_kernel_evaluations as f64);
+        // NaN counts as over.
+        let entries_over = !within(self.entries, limits.max_table_entries as f64);
+        let work_over = !within(self.evaluations, limits.max_kernel_evaluations as f64);
         if !(entries_over || work_over) {
             return Ok(());
         }
@@ -166,9 +178,34 @@ impl TableCost {
     }
 }
 
+/// What a tabulation depends on besides the stack's surface current: the current-sheet ends,
+/// the sheet radii, the grid (ring width and layer radii) and the reach, as exact bits.
+fn table_key(stack: &MagnetStack, grid: &RingGrid, reach_m: f64) -> Vec<u64> {
+    let mut key = vec![
+        stack.outer_radius_m.to_bits(),
+        stack.inner_radius_m.to_bits(),
+        grid.ring_width_m.to_bits(),
+        grid.layers as u64,
+        reach_m.to_bits(),
+    ];
+    key.extend(grid.layer_mean_m.iter().map(|r| r.to_bits()));
+    for (e, c) in sheet_ends(stack) {
+        key.extend([e.to_bits(), c.to_bits()]);
+    }
+    key
+}
+
 impl FluxTable {
     /// Like [`FluxTable::new`], after checking its [`TableCost`] against `limits` (every
     /// request-driven tabulation goes through here).
+    ///
+    /// Within a job that carries a table cache ([`Limits::with_job_cache`]) a table of the same
+    /// geometry (stack ends and radii, grid and reach) is taken from the cache and scaled by
+    /// the stack's surface current: the table is linear in it, so conditions that differ only
+    /// in remanence, temperature or conductivity share one tabulation.
+    ///
+    /// # Errors
+    /// The tabulation would exceed `limits` ([`ModelError::TooLarge`]), or the job was cancelled.
     pub fn checked(
         stack: &MagnetStack,
         grid: &RingGrid,
@@ -176,7 +213,28 @@ impl FluxTable {
         limits: &Limits,
     ) -> Result<Self, ModelError> {
         TableCost::of(stack, grid, reach_m).check(stack, grid, limits)?;
-        Self::tabulate(stack, grid, reach_m, &limits.cancel)
+        let ks = stack.surface_current_a_per_m();
+        let key = table_key(stack, grid, reach_m);
+        if let Some(unit) = limits.tables.get::<FluxTable>(&key) {
+            return Ok(unit.scaled(ks));
+        }
+        let unit = Self::tabulate_unit(stack, grid, reach_m, &limits.cancel)?;
+        let table = unit.scaled(ks);
+        if limits.tables.is_enabled() {
+            let n = unit.values.len();
+            limits.tables.insert(key, std::sync::Arc::new(unit), n);
+        }
+        Ok(table)
+    }
+
+    /// This table with every value times `factor`.
+    fn scaled(&self, factor: f64) -> Self {
+        Self {
+            spacing_m: self.spacing_m,
+            half_points: self.half_points,
+            layers: self.layers,
+            values: self.values.iter().map(|v| v * factor).collect(),
+        }
     }
 
     /// Tabulates the stack's dPhi/dzeta for the layers of `grid` over |zeta| <= `reach_m`
@@ -190,8 +248,8 @@ impl FluxTable {
     /// point is evaluated directly; beyond, M is first tabulated at a quarter of the spacing and
     /// each end's term is interpolated from it (cubic), which keeps long stacks linear in cost.
     pub fn new(stack: &MagnetStack, grid: &RingGrid, reach_m: f64) -> Self {
-        match Self::tabulate(stack, grid, reach_m, &CancelToken::never()) {
-            Ok(table) => table,
+        match Self::tabulate_unit(stack, grid, reach_m, &CancelToken::never()) {
+            Ok(unit) => unit.scaled(stack.surface_current_a_per_m()),
             // A token that never fires never stops the tabulation.
             Err(_) => Self {
                 spacing_m: grid.ring_width_m / POINTS_PER_RING as f64,
@@ -202,8 +260,10 @@ impl FluxTable {
         }
     }
 
-    /// [`FluxTable::new`], checking `cancel` every [`CANCEL_CHECK_POINTS`] table points.
-    fn tabulate(
+    /// [`FluxTable::new`] for a unit surface current (1 A/m), checking `cancel` every
+    /// [`CANCEL_CHECK_POINTS`] table points: the caller scales it by the stack's, so a cached
+    /// and a fresh table give the same bits.
+    fn tabulate_unit(
         stack: &MagnetStack,
         grid: &RingGrid,
         reach_m: f64,
@@ -213,7 +273,8 @@ impl FluxTable {
         let half_points = (reach_m / h).ceil() as i64 + 3;
         let len = (2 * half_points + 1) as usize;
         let ends = sheet_ends(stack);
-        let ks = stack.surface_current_a_per_m();
+        // Unit surface current; the caller scales.
+        let ks = 1.0;
         let mut sheets = vec![(stack.outer_radius_m, 1.0)];
         if stack.inner_radius_m > 0.0 {
             sheets.push((stack.inner_radius_m, -1.0));

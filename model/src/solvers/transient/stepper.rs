@@ -36,12 +36,17 @@ use crate::solvers::transient::circuit::RingCircuit;
 /// Factors kept for reuse when dt returns to an earlier size.
 const FACTOR_CACHE: usize = 4;
 
+/// Share of Milne's predictor-corrector difference that is BDF2's local error: C / (1 + C)
+/// with BDF2's error constant C = 2/9 against the quadratic extrapolation's 1.
+const BDF2_MILNE: f64 = 2.0 / 11.0;
+
 /// Which rings carry current.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(crate) enum WindowMode {
     /// Rings within `half_length_m` of the stack centre; `finite` clips to the tube.
     Moving { half_length_m: f64, finite: bool },
     /// Every ring of the (finite) tube, always: the dense reference.
+    #[cfg_attr(not(feature = "dense-reference"), allow(dead_code))]
     WholeTube,
 }
 
@@ -95,6 +100,11 @@ pub(crate) struct Stepper<'a> {
     /// Magnetic energy removed with currents dropped at the window edge, J.
     pub(crate) dropped_energy_j: f64,
     pub(crate) refactorisations: usize,
+    /// Local error estimate of the last step in the force, N (see [`Stepper::force_error_n`]).
+    force_error_n: Option<f64>,
+    /// Whether the next steps estimate their error (the step control asks only where the step
+    /// may change on it).
+    pub(crate) estimate_error: bool,
 }
 
 impl<'a> Stepper<'a> {
@@ -135,11 +145,12 @@ impl<'a> Stepper<'a> {
             gy2: 0.0,
             dropped_energy_j: 0.0,
             refactorisations: 0,
+            force_error_n: None,
+            estimate_error: true,
         };
         let (lo, count) = s.window_for(x_m);
         s.lo = lo;
         s.count = count;
-        s.factor_for(dt_s)?;
         Ok(s)
     }
 
@@ -183,10 +194,16 @@ impl<'a> Stepper<'a> {
         dt_s.to_bits()
     }
 
-    fn factor_for(&mut self, dt_s: f64) -> Result<(), ModelError> {
+    /// Index in the cache of the factor for `dt_s`, factorising it first when it is not there
+    /// (the least recently used factor makes room). Factorising only when a step needs it
+    /// keeps steps over an empty window (free flight outside the tube) free of it.
+    fn factor_for(&mut self, dt_s: f64) -> Result<usize, ModelError> {
         let key = Self::factor_key(dt_s);
-        if self.factors.iter().any(|(k, _)| *k == key) {
-            return Ok(());
+        if let Some(i) = self.factors.iter().position(|(k, _)| *k == key) {
+            // Most recently used last.
+            let f = self.factors.remove(i);
+            self.factors.push(f);
+            return Ok(self.factors.len() - 1);
         }
         let a = self
             .circuit
@@ -197,7 +214,13 @@ impl<'a> Stepper<'a> {
             self.factors.remove(0);
         }
         self.factors.push((key, a));
-        Ok(())
+        Ok(self.factors.len() - 1)
+    }
+
+    /// Whether a factor for `dt_s` is cached (a change to it costs no factorisation).
+    pub(crate) fn has_factor(&self, dt_s: f64) -> bool {
+        let key = Self::factor_key(dt_s);
+        self.factors.iter().any(|(k, _)| *k == key)
     }
 
     /// Moves the window to the one for `x_m`, carrying currents over and counting the energy
@@ -296,8 +319,9 @@ impl<'a> Stepper<'a> {
 
     /// Prepares the step to t + dt with the flux derivative evaluated at the predicted stack
     /// position `x_pred_m`: moves the window, forms h and G, and solves for y1, y2. Returns
-    /// (G.y1, G.y2): the braking force will be G.y1 + v G.y2. Fails only if no factor exists for
-    /// the current step size (an internal inconsistency, reported rather than ignored).
+    /// (G.y1, G.y2): the braking force will be G.y1 + v G.y2. Factorises the step matrix for
+    /// the current step size when no cached factor serves it; fails only if that matrix is not
+    /// positive definite.
     pub(crate) fn prepare(&mut self, x_pred_m: f64) -> Result<(f64, f64), ModelError> {
         self.shift_window(x_pred_m);
         let nl = self.grid.layers;
@@ -321,13 +345,10 @@ impl<'a> Stepper<'a> {
         }
         self.y1[..n].copy_from_slice(&self.h[..n]);
         self.y2[..n].copy_from_slice(&self.g[..n]);
-        let key = Self::factor_key(self.dt_s);
-        let Some((_, f)) = self.factors.iter().find(|(k, _)| *k == key) else {
-            return Err(ModelError::Numerical(
-                "ring-circuit step without a factorised matrix for its step size".into(),
-            ));
-        };
-        f.solve_leading2(&mut self.y1[..n], &mut self.y2[..n]);
+        let i = self.factor_for(self.dt_s)?;
+        self.factors[i]
+            .1
+            .solve_leading2(&mut self.y1[..n], &mut self.y2[..n]);
         let (mut a, mut b) = (0.0, 0.0);
         for k in 0..n {
             a += self.g[k] * self.y1[k];
@@ -340,28 +361,56 @@ impl<'a> Stepper<'a> {
 
     /// Completes the prepared step with the new speed: forms I and Psi, shifts the levels.
     /// Returns (electromagnetic force along travel, dissipated power) at the new level.
+    ///
+    /// Also estimates the local error of the step in the braking force (see
+    /// [`Stepper::force_error_n`]).
     pub(crate) fn commit(&mut self, v_m_per_s: f64) -> (f64, f64) {
         let nl = self.grid.layers;
         let n = self.count * nl;
+        // The quadratic predictor through levels n, n-1, n-2 needs three levels at one spacing.
+        let predict = self.estimate_error && self.valid_levels >= 3;
         self.levels.rotate_right(1);
         let scale = 2.0 * self.dt_s / 3.0;
         let r = self.circuit.resistance_ohm();
         let mut power = 0.0;
+        let mut deviation = 0.0;
         {
-            let lvl = &mut self.levels[0];
+            let [lvl, l1, l2] = &mut self.levels;
             lvl.speed = v_m_per_s;
             for k in 0..n {
                 let i = self.y1[k] + v_m_per_s * self.y2[k];
+                let rk = r[k % nl];
+                if predict {
+                    // lvl still holds level n-2 here; l1 is level n, l2 level n-1.
+                    let pred = 3.0 * l1.current[k] - 3.0 * l2.current[k] + lvl.current[k];
+                    deviation += (self.g[k] - rk * self.y2[k]) * (i - pred);
+                }
                 lvl.current[k] = i;
-                lvl.psi[k] = scale * (self.h[k] + v_m_per_s * self.g[k] - r[k % nl] * i);
-                power += r[k % nl] * i * i;
+                lvl.psi[k] = scale * (self.h[k] + v_m_per_s * self.g[k] - rk * i);
+                power += rk * i * i;
             }
             lvl.current[n..].fill(0.0);
             lvl.psi[n..].fill(0.0);
         }
+        self.force_error_n = predict.then_some(BDF2_MILNE * deviation.abs());
         self.valid_levels = (self.valid_levels + 1).min(3);
         let force = -(self.gy1 + v_m_per_s * self.gy2);
         (force, power)
+    }
+
+    /// Estimated local error of the last committed step in the braking force, N, or None when
+    /// the levels before it were not equally spaced (the step after a change of dt).
+    ///
+    /// Milne's device: the BDF2 solution minus the quadratic extrapolation of the three previous
+    /// currents is (1 + 2/9) h^3 I''' for a smooth solution, of which BDF2's own local error is
+    /// the part 2/9 (Hairer & Wanner, Solving ODEs II, 1996, sec. III.7 and IV.8 on error
+    /// estimation in stiff codes). For stiff ring modes (L/R far below dt) that raw difference
+    /// overstates the error, so it is filtered through the step matrix, e = A^{-1} (3/(2 dt)) L
+    /// dI (as in Hairer & Wanner's RADAU5 estimate), and only its effect on the force is taken:
+    /// G.e = y2.(A - R) dI = (G - R y2).dI with y2 = A^{-1} G from the step itself, so the
+    /// estimate costs one dot product and no solve.
+    pub(crate) fn force_error_n(&self) -> Option<f64> {
+        self.force_error_n
     }
 
     /// Speeds at levels n and n-1.
@@ -376,7 +425,6 @@ impl<'a> Stepper<'a> {
         if new_dt >= self.dt_s {
             return Ok(());
         }
-        self.factor_for(new_dt)?;
         let r = new_dt / self.dt_s;
         let three = self.valid_levels >= 3;
         // Weights on (level n, n-1, n-2) at s = -r and s = -2 r (time in units of old dt).
@@ -419,7 +467,6 @@ impl<'a> Stepper<'a> {
             return Ok(false);
         }
         let new_dt = 2.0 * self.dt_s;
-        self.factor_for(new_dt)?;
         self.levels.swap(1, 2);
         self.valid_levels = 2;
         self.dt_s = new_dt;
