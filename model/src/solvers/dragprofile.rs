@@ -42,6 +42,11 @@ pub struct DragProfile {
 }
 
 /// Builds the drag profile of `design` at the default (or overridden) ring width and layers.
+///
+/// # Errors
+///
+/// As [`RingGrid::new`] for the grid, and
+/// [`ModelError::TooLarge`] or [`ModelError::Cancelled`] from the flux table and the ring sums.
 pub fn drag_profile(
     design: &Design,
     ring_width_m: Option<f64>,

@@ -158,6 +158,11 @@ impl RingGrid {
     /// [`default_layers`] (the automatic layer count is capped at the service limit).
     /// `skin_speed_m_per_s` is the speed whose skin depth the layers must resolve (None for the
     /// quasi-static model, which has no skin effect).
+    ///
+    /// # Errors
+    ///
+    /// [`ModelError::Invalid`] for a ring width or layer count outside the allowed range,
+    /// [`ModelError::TooLarge`] for a grid above the work limits.
     pub fn new(
         design: &Design,
         ring_width_m: Option<f64>,
