@@ -15,6 +15,10 @@
 //!
 //! The test prints its table (run with `--nocapture` to see it).
 
+#[path = "support/accuracy_cases.rs"]
+mod accuracy_cases;
+
+use accuracy_cases::{mid_tube_index, reference_limits};
 use ringdrag_model::records::spec::DesignSpec;
 use ringdrag_model::{
     Design, Fidelity, ForceCurve, ForceCurveOptions, Limits, Stroke, StrokeOptions, force_curve,
@@ -28,15 +32,7 @@ const FIXTURE: &str = include_str!("fixtures/accuracy_reference.json");
 /// common practice for an engineering estimate).
 const DEFAULT_ACCURACY: f64 = 0.005;
 
-fn reference_limits() -> Limits {
-    Limits {
-        max_ring_cells: 4_000_000,
-        max_radial_layers: 64,
-        max_band_entries: 12 << 20,
-        ..Limits::default()
-    }
-}
-
+/// The cases of the fixture (computed from [`accuracy_cases::cases`]).
 fn cases() -> Vec<Value> {
     let v: Value = serde_json::from_str(FIXTURE).expect("fixture parses");
     v["cases"].as_array().expect("cases").clone()
@@ -58,17 +54,7 @@ fn options_of(case: &Value) -> StrokeOptions {
 }
 
 fn mid_tube_speed(s: &Stroke, tube_length_m: f64) -> f64 {
-    let (i, _) = s
-        .series
-        .position_m
-        .iter()
-        .enumerate()
-        .min_by(|a, b| {
-            (a.1 - 0.5 * tube_length_m)
-                .abs()
-                .total_cmp(&(b.1 - 0.5 * tube_length_m).abs())
-        })
-        .expect("samples");
+    let i = mid_tube_index(&s.series.position_m, tube_length_m).expect("samples");
     s.series.speed_m_per_s[i]
 }
 
@@ -281,6 +267,18 @@ fn the_fixture_is_current() {
     // ring-circuit run) at their stored resolution; a stale fixture fails here.
     // source: refined run (the fixture's own numbers, reproduced to 1e-9).
     let all = cases();
+    // The fixture holds exactly the validation set, design for design.
+    let listed = accuracy_cases::cases();
+    assert_eq!(
+        all.len(),
+        listed.len(),
+        "cases in the fixture and in the list"
+    );
+    for (stored, (name, design_json, ..)) in all.iter().zip(&listed) {
+        assert_eq!(stored["name"], *name, "fixture order or name");
+        let design: Value = serde_json::from_str(design_json).expect("listed design parses");
+        assert_eq!(stored["design"], design, "{name}: the fixture's design");
+    }
     let sample: Vec<&Value> = all
         .iter()
         .filter(|c| {

@@ -33,15 +33,17 @@
 //! Bounds: at most 20 steps, 120 s and 1,000,000 requests per step, 512 clients; targets
 //! other than loopback addresses are refused.
 
+#[path = "support/loopback.rs"]
+mod loopback;
+
 use clap::Parser;
+use loopback::{default_server, memory_kib, start_server};
 use serde_json::Value;
 use std::net::IpAddr;
 use std::path::PathBuf;
-use std::process::Stdio;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 use std::time::{Duration, Instant};
-use tokio::io::{AsyncBufReadExt, BufReader};
 
 const FORCE_CURVE: &str = include_str!("../../examples/force-curve-copper-drop.json");
 const SIMULATE: &str = include_str!("../../examples/simulate-copper-drop.json");
@@ -199,19 +201,6 @@ fn check_loopback(url: &str) -> Result<(), String> {
             "'{url}' is not a loopback address; loadgen targets loopback only"
         ))
     }
-}
-
-/// Resident memory of process `pid`, KiB: (current, peak).
-fn memory_kib(pid: u32) -> Option<(u64, u64)> {
-    let status = std::fs::read_to_string(format!("/proc/{pid}/status")).ok()?;
-    let field = |name: &str| {
-        status
-            .lines()
-            .find(|l| l.starts_with(name))
-            .and_then(|l| l.split_whitespace().nth(1))
-            .and_then(|v| v.parse::<u64>().ok())
-    };
-    Some((field("VmRSS:")?, field("VmHWM:")?))
 }
 
 /// One answer: latency in microseconds, status, and whether a 503 carried `Retry-After`.
@@ -385,47 +374,6 @@ fn print_row(step: &Step, r: &StepResult) {
     );
 }
 
-/// Starts the server on a free loopback port; returns the child, its base URL and its pid.
-async fn start_server(
-    path: &PathBuf,
-    args: &[String],
-) -> Result<(tokio::process::Child, String, Option<u32>), String> {
-    let mut cmd = tokio::process::Command::new(path);
-    cmd.args(["--listen", "127.0.0.1:0"])
-        .args(args)
-        .stdin(Stdio::null())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::null())
-        .kill_on_drop(true);
-    let mut child = cmd
-        .spawn()
-        .map_err(|e| format!("cannot start {}: {e}", path.display()))?;
-    let stdout = child.stdout.take().ok_or("no stdout")?;
-    let mut lines = BufReader::new(stdout).lines();
-    let prefix = "ringdrag listening on ";
-    let found = tokio::time::timeout(Duration::from_secs(30), async {
-        while let Ok(Some(line)) = lines.next_line().await {
-            if let Some(url) = line.strip_prefix(prefix) {
-                return Some(url.trim().to_string());
-            }
-        }
-        None
-    })
-    .await
-    .ok()
-    .flatten()
-    .ok_or("the server did not print its address")?;
-    tokio::spawn(async move { while let Ok(Some(_)) = lines.next_line().await {} });
-    let pid = child.id();
-    Ok((child, found, pid))
-}
-
-fn default_server() -> Option<PathBuf> {
-    let me = std::env::current_exe().ok()?;
-    let profile_dir = me.parent()?.parent()?;
-    Some(profile_dir.join("ringdrag"))
-}
-
 async fn run(args: Args) -> Result<(), String> {
     let steps = parse_steps(&args.steps)?;
     let duration_s = args.duration_s.clamp(1, MAX_STEP_S);
@@ -441,9 +389,10 @@ async fn run(args: Args) -> Result<(), String> {
                 .clone()
                 .or_else(default_server)
                 .ok_or("give --server PATH")?;
-            let (child, base, pid) = start_server(&server, &args.server_args).await?;
-            check_loopback(&base)?;
-            (Some(child), base, pid)
+            let started = start_server(&server, &args.server_args, None).await?;
+            check_loopback(&started.url)?;
+            let (base, pid) = (started.url.clone(), Some(started.pid));
+            (Some(started), base, pid)
         }
     };
     let clients = steps.iter().map(|s| s.clients).max().unwrap_or(1);

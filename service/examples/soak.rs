@@ -32,14 +32,17 @@
 //! Bounds: 300 s, 2,000 idle connections, 500 slow clients of each kind, 64 heavy clients,
 //! 2,000 connections per wave and burst; 127.0.0.1 only.
 
+#[path = "support/loopback.rs"]
+mod loopback;
+
 use clap::Parser;
+use loopback::{LoopbackServer, default_server, memory_kib, start_server};
 use serde_json::{Value, json};
 use std::path::PathBuf;
-use std::process::Stdio;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 use std::time::{Duration, Instant};
-use tokio::io::{AsyncBufReadExt, AsyncReadExt, AsyncWriteExt, BufReader};
+use tokio::io::{AsyncReadExt, AsyncWriteExt};
 use tokio::net::TcpStream;
 use tokio::sync::Mutex;
 
@@ -103,13 +106,9 @@ struct Counters {
     connect_failed: AtomicU64,
 }
 
-fn memory_kib(pid: u32) -> Option<u64> {
-    let status = std::fs::read_to_string(format!("/proc/{pid}/status")).ok()?;
-    status
-        .lines()
-        .find(|l| l.starts_with("VmRSS:"))
-        .and_then(|l| l.split_whitespace().nth(1))
-        .and_then(|v| v.parse().ok())
+/// Resident memory of process `pid` now, KiB.
+fn rss_kib(pid: u32) -> Option<u64> {
+    memory_kib(pid).map(|(now, _peak)| now)
 }
 
 /// The one-minute load average of the machine, as `/proc/loadavg` says.
@@ -145,58 +144,15 @@ fn raise_own_file_limit() {
 #[cfg(not(unix))]
 fn raise_own_file_limit() {}
 
-async fn start_server(args: &Args) -> Result<(tokio::process::Child, String, u32), String> {
-    let path = match &args.server {
-        Some(p) => p.clone(),
-        None => {
-            let me = std::env::current_exe().map_err(|e| e.to_string())?;
-            me.parent()
-                .and_then(|p| p.parent())
-                .map(|p| p.join("ringdrag"))
-                .ok_or("give --server PATH")?
-        }
-    };
-    let mut cmd = if args.server_file_limit > 0 {
-        let mut c = tokio::process::Command::new("sh");
-        c.arg("-c")
-            .arg(format!(
-                "ulimit -n {} && exec \"$0\" \"$@\"",
-                args.server_file_limit
-            ))
-            .arg(&path);
-        c
-    } else {
-        tokio::process::Command::new(&path)
-    };
-    cmd.args(["--listen", "127.0.0.1:0"])
-        .args(&args.server_args)
-        .stdin(Stdio::null())
-        .stdout(Stdio::piped())
-        .stderr(Stdio::null())
-        .kill_on_drop(true);
-    let mut child = cmd
-        .spawn()
-        .map_err(|e| format!("cannot start {}: {e}", path.display()))?;
-    let stdout = child.stdout.take().ok_or("no stdout")?;
-    let mut lines = BufReader::new(stdout).lines();
-    let url = tokio::time::timeout(Duration::from_secs(30), async {
-        while let Ok(Some(line)) = lines.next_line().await {
-            if let Some(url) = line.strip_prefix("ringdrag listening on ") {
-                return Some(url.trim().to_string());
-            }
-        }
-        None
-    })
-    .await
-    .ok()
-    .flatten()
-    .ok_or("the server did not print its address")?;
-    tokio::spawn(async move { while let Ok(Some(_)) = lines.next_line().await {} });
-    if !url.starts_with("http://127.0.0.1:") {
-        return Err(format!("{url} is not on 127.0.0.1"));
-    }
-    let pid = child.id().ok_or("no pid")?;
-    Ok((child, url, pid))
+/// Starts the server of `args` (the release binary next to this example by default).
+async fn start(args: &Args) -> Result<LoopbackServer, String> {
+    let path = args
+        .server
+        .clone()
+        .or_else(default_server)
+        .ok_or("give --server PATH")?;
+    let file_limit = (args.server_file_limit > 0).then_some(args.server_file_limit);
+    start_server(&path, &args.server_args, file_limit).await
 }
 
 /// Reads until the server closes or `bound` passes; true when it closed.
@@ -268,12 +224,13 @@ async fn run(args: Args) -> Result<(), String> {
     let pathological = args.pathological.min(8);
     let churn = args.churn.min(2000);
     let burst = args.burst.min(2000);
-    let (_child, base, pid) = start_server(&args).await?;
+    let server = start(&args).await?;
+    let (base, pid) = (server.url.clone(), server.pid);
     let addr = Arc::new(base.trim_start_matches("http://").to_string());
     let counters = Arc::new(Counters::default());
     let stop = Arc::new(AtomicBool::new(false));
     let started = Instant::now();
-    let rss_start = memory_kib(pid).unwrap_or(0);
+    let rss_start = rss_kib(pid).unwrap_or(0);
     let load_start = load_average();
     let mut tasks = Vec::new();
 
@@ -503,19 +460,19 @@ async fn run(args: Args) -> Result<(), String> {
             }
         }
         tick += 1;
-        if let Some(rss) = memory_kib(pid) {
+        if let Some(rss) = rss_kib(pid) {
             rss_peak = rss_peak.max(rss);
         }
         tokio::time::sleep(SAMPLE_EVERY).await;
     }
     stop.store(true, Ordering::Relaxed);
-    let rss_at_stop = memory_kib(pid).unwrap_or(0);
+    let rss_at_stop = rss_kib(pid).unwrap_or(0);
     for t in tasks {
         let _ = tokio::time::timeout(Duration::from_secs(15), t).await;
     }
     drop(probe_client);
     tokio::time::sleep(Duration::from_secs(5)).await;
-    let rss_after = memory_kib(pid).unwrap_or(0);
+    let rss_after = rss_kib(pid).unwrap_or(0);
     let metrics = reqwest::get(format!("{base}/metrics"))
         .await
         .map_err(|e| e.to_string())?

@@ -332,7 +332,9 @@ pub async fn serve(
     loop {
         tokio::select! {
             biased;
-            _ = stop.wait_for(|stopped| *stopped) => break,
+            // The borrow `wait_for` returns is dropped inside, so that the loop's future stays
+            // `Send` across the back-off below (the in-process tests spawn it).
+            () = async { let _ = stop.wait_for(|stopped| *stopped).await; } => break,
             accepted = listener.accept() => match accepted {
                 Ok((stream, peer)) => {
                     if let Ok(permit) = Arc::clone(&slots).try_acquire_owned() {

@@ -6,9 +6,11 @@
 //! response records of the HTTP contract ([`api`]) and failures into RFC 9457 problem
 //! documents ([`problem`]).
 //!
-//! The application is a function of its state and configuration: [`router`] builds it, and
-//! `main` only sets up logging and metrics, parses the configuration, binds, serves, and shuts
-//! down gracefully.
+//! The application is a function of its state and configuration: [`router`] builds it and
+//! [`serve`] runs it on a bound listener with the connection handling of [`connections`] until
+//! asked to stop, then drains. `main` only parses the configuration, sets up logging and
+//! metrics, binds and calls [`serve`] with a future that completes on SIGTERM or Ctrl+C; the
+//! end-to-end tests call the same [`serve`] in process on an ephemeral port.
 
 pub mod access;
 pub mod api;
@@ -26,10 +28,12 @@ pub mod priority;
 pub mod problem;
 pub mod ratelimit;
 pub mod serde_words;
+pub mod server;
 pub mod state;
 pub mod telemetry;
 
 pub use config::Config;
+pub use server::serve;
 pub use state::AppState;
 
 use axum::Router;

@@ -5,7 +5,9 @@
 //! Prometheus recorder whose handle renders `GET /metrics`.
 
 use crate::config::LogFormat;
-use metrics_exporter_prometheus::{Matcher, PrometheusBuilder, PrometheusHandle};
+use metrics_exporter_prometheus::{
+    Matcher, PrometheusBuilder, PrometheusHandle, PrometheusRecorder,
+};
 use tracing_subscriber::EnvFilter;
 
 /// Histogram buckets for request and job durations, s (common practice: roughly 1-2.5-5 per
@@ -42,12 +44,31 @@ pub fn init_tracing(format: LogFormat) -> anyhow::Result<()> {
 ///
 /// When the Prometheus recorder cannot be built or a global recorder is already installed.
 pub fn install_metrics() -> anyhow::Result<PrometheusHandle> {
-    let handle = PrometheusBuilder::new()
+    let recorder = metrics_recorder()?;
+    let handle = recorder.handle();
+    metrics::set_global_recorder(recorder)
+        .map_err(|e| anyhow::anyhow!("cannot install the metrics recorder: {e}"))?;
+    describe_metrics();
+    Ok(handle)
+}
+
+/// The service's Prometheus recorder (histogram buckets set), not installed: `main` installs
+/// it globally; the in-process tests give each test server its own, set per thread, so that
+/// servers running side by side count apart. Its handle renders `GET /metrics`.
+///
+/// # Errors
+/// When the histogram buckets are refused.
+pub fn metrics_recorder() -> anyhow::Result<PrometheusRecorder> {
+    Ok(PrometheusBuilder::new()
         .set_buckets_for_metric(
             Matcher::Suffix("duration_seconds".to_string()),
             &DURATION_BUCKETS_S,
         )?
-        .install_recorder()?;
+        .build_recorder())
+}
+
+/// Describes the service's metrics (help text and units) to the recorder in force.
+pub fn describe_metrics() {
     metrics::describe_counter!(
         "ringdrag_http_requests_total",
         "HTTP requests answered, by method, route and status."
@@ -78,5 +99,4 @@ pub fn install_metrics() -> anyhow::Result<PrometheusHandle> {
         metrics::Unit::Seconds,
         "Computing time of a job, by job."
     );
-    Ok(handle)
 }

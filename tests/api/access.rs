@@ -1,6 +1,8 @@
 //! Access control, CORS, rate limits and the response cache, end to end.
 
-use crate::helpers::{Logs, TestApp, expect_problem, sample_design, spawn_app, spawn_app_with};
+use crate::helpers::{
+    TestApp, expect_problem, parse_flags, sample_design, start_app, start_app_with,
+};
 use reqwest::Method;
 use serde_json::{Value, json};
 use std::time::Duration;
@@ -40,15 +42,12 @@ fn header(response: &reqwest::Response, name: &str) -> Option<String> {
         .map(str::to_string)
 }
 
-async fn keyed_app(extra_args: &[&str], extra_env: &[(&str, &str)]) -> TestApp {
+async fn keyed_app(extra_args: &[&str]) -> TestApp {
     let path = temp_file("keys", &format!("# invented test key\n\n{KEY_FILE}\n"));
     let file = path.to_str().expect("utf-8 path").to_string();
-    let mut env = vec![
-        ("RINGDRAG_API_KEYS", KEY_ENV),
-        ("RINGDRAG_API_KEYS_FILE", file.as_str()),
-    ];
-    env.extend_from_slice(extra_env);
-    let app = spawn_app_with(extra_args, &env, Logs::Quiet).await;
+    let mut args = vec!["--api-keys", KEY_ENV, "--api-keys-file", file.as_str()];
+    args.extend_from_slice(extra_args);
+    let app = start_app_with(&args).await;
     // The server read its keys at start.
     let _ = std::fs::remove_file(&path);
     app
@@ -56,7 +55,7 @@ async fn keyed_app(extra_args: &[&str], extra_env: &[(&str, &str)]) -> TestApp {
 
 #[tokio::test]
 async fn api_keys_guard_the_v1_routes_only() {
-    let app = keyed_app(&[], &[]).await;
+    let app = keyed_app(&[]).await;
     let bearer_env = format!("Bearer {KEY_ENV}");
     let bearer_file = format!("bearer {KEY_FILE}");
 
@@ -120,7 +119,7 @@ async fn api_keys_guard_the_v1_routes_only() {
 
 #[tokio::test]
 async fn metrics_can_be_put_behind_the_keys() {
-    let app = keyed_app(&["--protect-metrics"], &[]).await;
+    let app = keyed_app(&["--protect-metrics"]).await;
     expect_problem(app.get("/metrics").await, 401).await;
     let r = send(
         &app,
@@ -132,7 +131,7 @@ async fn metrics_can_be_put_behind_the_keys() {
     assert_eq!(r.status().as_u16(), 200);
     app.assert_healthy().await;
     // The environment variable works as the flag does.
-    let app = keyed_app(&[], &[("RINGDRAG_PROTECT_METRICS", "true")]).await;
+    let app = keyed_app(&["--protect-metrics"]).await;
     expect_problem(app.get("/metrics").await, 401).await;
 }
 
@@ -168,32 +167,48 @@ fn start_and_expect_exit(env: &[(&str, &str)]) -> (bool, String) {
     panic!("the server kept running with a bad key configuration");
 }
 
+/// The parser's refusal of `args` (the message the binary prints before it exits).
+fn refusal(args: &[&str]) -> String {
+    match parse_flags(args) {
+        Ok(_) => panic!("{args:?} accepted"),
+        Err(message) => message,
+    }
+}
+
 #[test]
 fn bad_key_configurations_refuse_to_start() {
+    // The binary: a weak key in the environment stops it at start, with the reason on
+    // standard error and without echoing the key.
+    let (ok, err) = start_and_expect_exit(&[("RINGDRAG_API_KEYS", "passwordpassword")]);
+    assert!(!ok && err.contains("too easy to guess"), "{err}");
+    assert!(
+        !err.contains("passwordpassword"),
+        "the refused key is echoed: {err}"
+    );
+    // The same parser, in process, for the other bad configurations.
     let path = temp_file("no-keys", "# no key here\n\n");
     let empty = path.to_str().expect("utf-8 path");
-    let (ok, err) = start_and_expect_exit(&[("RINGDRAG_API_KEYS_FILE", empty)]);
+    let err = refusal(&["--api-keys-file", empty]);
     let _ = std::fs::remove_file(&path);
-    assert!(!ok && err.contains("holds no key"), "{err}");
-    let (ok, err) =
-        start_and_expect_exit(&[("RINGDRAG_API_KEYS_FILE", "no-such-ringdrag-key-file")]);
-    assert!(!ok && err.contains("cannot read the API key file"), "{err}");
-    let (ok, err) = start_and_expect_exit(&[("RINGDRAG_API_KEYS", "short")]);
-    assert!(!ok && err.contains("at least 16"), "{err}");
+    assert!(err.contains("holds no key"), "{err}");
+    let err = refusal(&["--api-keys-file", "no-such-ringdrag-key-file"]);
+    assert!(err.contains("cannot read the API key file"), "{err}");
+    let err = refusal(&["--api-keys", "short"]);
+    assert!(err.contains("at least 16"), "{err}");
     // Long enough but obvious keys are refused too, without echoing them.
     for weak in ["abcdefghijklmnop", "passwordpassword", "1111111111111111"] {
-        let (ok, err) = start_and_expect_exit(&[("RINGDRAG_API_KEYS", weak)]);
-        assert!(!ok && err.contains("too easy to guess"), "{weak}: {err}");
+        let err = refusal(&["--api-keys", weak]);
+        assert!(err.contains("too easy to guess"), "{weak}: {err}");
         assert!(!err.contains(weak), "the refused key is echoed: {err}");
     }
-    let (ok, err) = start_and_expect_exit(&[("RINGDRAG_CORS_ORIGINS", "*")]);
-    assert!(!ok && err.contains("CORS origin"), "{err}");
+    let err = refusal(&["--cors-origins", "*"]);
+    assert!(err.contains("CORS origin"), "{err}");
 }
 
 #[tokio::test]
 async fn cors_allows_exactly_the_listed_origins() {
     let allowed = "https://shop.example.com";
-    let app = keyed_app(&[], &[("RINGDRAG_CORS_ORIGINS", allowed)]).await;
+    let app = keyed_app(&["--cors-origins", allowed]).await;
     let preflight = |origin: &str| {
         app.client
             .request(Method::OPTIONS, format!("{}/v1/force-curve", app.base))
@@ -241,7 +256,7 @@ async fn cors_allows_exactly_the_listed_origins() {
     expect_problem(r, 401).await;
 
     // Without the setting, no CORS headers at all.
-    let plain = spawn_app().await;
+    let plain = start_app().await;
     let r = plain
         .client
         .get(format!("{}/v1/materials", plain.base))
@@ -256,7 +271,7 @@ async fn cors_allows_exactly_the_listed_origins() {
 #[tokio::test]
 async fn rate_limits_apply_per_key() {
     // Two a minute, in a burst of two: one token every 30 s.
-    let app = keyed_app(&[], &[("RINGDRAG_RATE_LIMIT_PER_MINUTE", "2")]).await;
+    let app = keyed_app(&["--rate-limit-per-minute", "2"]).await;
     let a = format!("Bearer {KEY_ENV}");
     let b = format!("Bearer {KEY_FILE}");
     for _ in 0..2 {
@@ -282,16 +297,12 @@ async fn rate_limits_apply_per_key() {
 
 #[tokio::test]
 async fn rate_limits_apply_per_address_without_keys() {
-    let app = spawn_app_with(
-        &[
-            "--rate-limit-per-minute",
-            "1",
-            "--client-ip-header",
-            "x-forwarded-for",
-        ],
-        &[],
-        Logs::Quiet,
-    )
+    let app = start_app_with(&[
+        "--rate-limit-per-minute",
+        "1",
+        "--client-ip-header",
+        "x-forwarded-for",
+    ])
     .await;
     let from = |address: &'static str| {
         app.client
@@ -313,7 +324,7 @@ async fn rate_limits_apply_per_address_without_keys() {
     );
 
     // Without the header setting, the connection's address counts (all loopback here).
-    let app = spawn_app_with(&["--rate-limit-per-minute", "1"], &[], Logs::Quiet).await;
+    let app = start_app_with(&["--rate-limit-per-minute", "1"]).await;
     assert_eq!(app.get("/v1/materials").await.status().as_u16(), 200);
     expect_problem(app.get("/v1/materials").await, 429).await;
 }
@@ -321,15 +332,12 @@ async fn rate_limits_apply_per_address_without_keys() {
 #[tokio::test]
 async fn wrong_keys_are_throttled_per_address() {
     // Three wrong keys a minute per address; addresses from the forwarded header.
-    let app = keyed_app(
-        &[
-            "--auth-failures-per-minute",
-            "3",
-            "--client-ip-header",
-            "x-forwarded-for",
-        ],
-        &[],
-    )
+    let app = keyed_app(&[
+        "--auth-failures-per-minute",
+        "3",
+        "--client-ip-header",
+        "x-forwarded-for",
+    ])
     .await;
     let attempt = |address: &'static str, key: &str| {
         app.client
@@ -366,18 +374,14 @@ async fn wrong_keys_are_throttled_per_address() {
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn strangers_cannot_fill_the_rate_limit_table() {
     // One request a minute per forwarded address, a table of 256 clients.
-    let app = spawn_app_with(
-        &[
-            "--rate-limit-per-minute",
-            "1",
-            "--client-ip-header",
-            "x-forwarded-for",
-            "--rate-limit-max-clients",
-            "256",
-        ],
-        &[],
-        Logs::Quiet,
-    )
+    let app = start_app_with(&[
+        "--rate-limit-per-minute",
+        "1",
+        "--client-ip-header",
+        "x-forwarded-for",
+        "--rate-limit-max-clients",
+        "256",
+    ])
     .await;
     let from = |address: String| {
         app.client
@@ -403,7 +407,7 @@ async fn strangers_cannot_fill_the_rate_limit_table() {
 
 #[tokio::test]
 async fn a_body_with_a_repeated_key_is_refused_cold_and_warm() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let design = sample_design().to_string();
     // The same field twice; the endpoint's parser refuses it (serde: duplicate field).
     let repeated =
@@ -440,7 +444,7 @@ fn jobs_ok(metrics: &str) -> u64 {
 
 #[tokio::test]
 async fn identical_requests_are_answered_from_the_cache() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body = json!({ "design": sample_design(), "speeds_m_per_s": [0.05, 0.5] });
     let first = app.post_json("/v1/force-curve", &body).await;
     assert_eq!(header(&first, "x-cache").as_deref(), Some("miss"));
@@ -484,7 +488,7 @@ async fn identical_requests_are_answered_from_the_cache() {
 
 #[tokio::test]
 async fn the_cache_can_be_turned_off() {
-    let app = spawn_app_with(&["--cache-entries", "0"], &[], Logs::Quiet).await;
+    let app = start_app_with(&["--cache-entries", "0"]).await;
     let body = json!({ "design": sample_design(), "speeds_m_per_s": [0.05] });
     for _ in 0..2 {
         let r = app.post_json("/v1/force-curve", &body).await;

@@ -3,7 +3,9 @@
 //! their deadline, while `/healthz` keeps answering; and a job past its deadline frees its
 //! slot for the next request instead of leaving it 503.
 
-use crate::helpers::{Logs, TestApp, error_paths, sample_design, spawn_app_with};
+use crate::helpers::{
+    Logs, TestApp, error_paths, sample_design, spawn_binary_with, start_app_with,
+};
 use serde_json::{Value, json};
 use std::time::{Duration, Instant};
 
@@ -67,7 +69,10 @@ async fn bounded(app: &TestApp, what: &str, path: &str, body: &Value, accept: Op
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn red_team_requests_are_refused_or_bounded() {
     let timeout = TIMEOUT_S.to_string();
-    let app = spawn_app_with(
+    // A process of its own: these jobs keep rayon's pool busy up to their deadline, and the
+    // pool is per process (rayon runs a worker's own tasks before jobs injected from outside,
+    // so in process the other tests' sweeps and sizings would wait for them).
+    let app = spawn_binary_with(
         &["--request-timeout-s", &timeout, "--cache-entries", "0"],
         &[],
         Logs::Quiet,
@@ -184,7 +189,7 @@ async fn red_team_requests_are_refused_or_bounded() {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn subnormal_inputs_name_the_field() {
-    let app = crate::helpers::spawn_app().await;
+    let app = crate::helpers::start_app().await;
     let mut d = sample_design();
     d["magnets"]["outer_diameter_m"] = json!(5e-324);
     let r = app
@@ -209,20 +214,16 @@ async fn jobs_in_flight(app: &TestApp) -> f64 {
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn a_timed_out_job_frees_its_slot() {
     // One slot, a 1 s request timeout, a 500 ms queue wait, no cache.
-    let app = spawn_app_with(
-        &[
-            "--max-concurrent-jobs",
-            "1",
-            "--request-timeout-s",
-            "1",
-            "--queue-wait-ms",
-            "500",
-            "--cache-entries",
-            "0",
-        ],
-        &[],
-        Logs::Quiet,
-    )
+    let app = start_app_with(&[
+        "--max-concurrent-jobs",
+        "1",
+        "--request-timeout-s",
+        "1",
+        "--queue-wait-ms",
+        "500",
+        "--cache-entries",
+        "0",
+    ])
     .await;
     // A sweep of 150 ring-circuit strokes through a 2 m tube: many seconds of work.
     let mut d = sample_design();

@@ -1,7 +1,7 @@
 //! Many requests at once: right answers, bounded computation, shed load, deadlines, and a
 //! liveness probe that keeps answering.
 
-use crate::helpers::{Logs, expect_problem, heavy_force_curve, rel, sample_design, spawn_app_with};
+use crate::helpers::{expect_problem, heavy_force_curve, rel, sample_design, start_app_with};
 use serde_json::{Value, json};
 use std::time::{Duration, Instant};
 
@@ -16,7 +16,7 @@ fn in_flight(metrics: &str) -> f64 {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn many_concurrent_requests_are_answered_correctly() {
-    let app = spawn_app_with(&["--queue-wait-ms", "60000"], &[], Logs::Quiet).await;
+    let app = start_app_with(&["--queue-wait-ms", "60000"]).await;
     let n = 24;
     let mut tasks = Vec::new();
     for k in 1..=n {
@@ -51,12 +51,7 @@ async fn many_concurrent_requests_are_answered_correctly() {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn liveness_answers_while_every_slot_computes() {
-    let app = spawn_app_with(
-        &["--max-concurrent-jobs", "1", "--queue-wait-ms", "60000"],
-        &[],
-        Logs::Quiet,
-    )
-    .await;
+    let app = start_app_with(&["--max-concurrent-jobs", "1", "--queue-wait-ms", "60000"]).await;
     // Calibration: one heavy job alone, timed on this machine now (a distinct speed, so the
     // cache does not answer the jobs below).
     let mut alone = heavy_force_curve(2000);
@@ -108,12 +103,7 @@ async fn liveness_answers_while_every_slot_computes() {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn overload_is_shed_with_503_and_retry_after() {
-    let app = spawn_app_with(
-        &["--max-concurrent-jobs", "1", "--queue-wait-ms", "0"],
-        &[],
-        Logs::Quiet,
-    )
-    .await;
+    let app = start_app_with(&["--max-concurrent-jobs", "1", "--queue-wait-ms", "0"]).await;
     let body = heavy_force_curve(2000);
     let mut tasks = Vec::new();
     for _ in 0..8 {
@@ -156,18 +146,14 @@ async fn a_job_past_the_request_timeout_is_503() {
     // A larger speed cap (and body limit) makes one force curve take several seconds: 300,000
     // speeds took about 4 s here, past the 1 s timeout. The checks are on order and outcome:
     // the 503 comes while the job still holds its slot (it keeps it until it really ends).
-    let app = spawn_app_with(
-        &[
-            "--request-timeout-s",
-            "1",
-            "--max-speeds",
-            "1000000",
-            "--max-body-bytes",
-            "8000000",
-        ],
-        &[],
-        Logs::Quiet,
-    )
+    let app = start_app_with(&[
+        "--request-timeout-s",
+        "1",
+        "--max-speeds",
+        "1000000",
+        "--max-body-bytes",
+        "8000000",
+    ])
     .await;
     let response = app
         .post_json("/v1/force-curve", &heavy_force_curve(300_000))

@@ -2,7 +2,7 @@
 //! tolerances, choosing from stocked parts (checked by simulating every combination),
 //! runaway on every endpoint, and whole numbers staying whole.
 
-use crate::helpers::{TestApp, error_paths, expect_problem, spawn_app};
+use crate::helpers::{TestApp, error_paths, expect_problem, start_app};
 use serde_json::{Value, json};
 
 /// Invented scenario: a 2 kg load lowered 0.5 m vertically by a stack of N45 discs
@@ -44,7 +44,7 @@ async fn landing_at(app: &TestApp, design: &Value, c: f64) -> Option<f64> {
 
 #[tokio::test]
 async fn the_configurator_load_is_sized_on_landing_speed_at_the_worst_corner_hot() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let request = json!({
         "design": load_design(1),
         "vary": { "path": "magnets.count", "min": 1, "max": 16 },
@@ -132,7 +132,7 @@ fn shop_request() -> Value {
 
 #[tokio::test]
 async fn selection_returns_the_cheapest_feasible_combination_checked_by_simulation() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let request = shop_request();
     let body = app.post_ok("/v1/select", &request).await;
     assert_eq!(body["feasible"], true, "{body}");
@@ -209,7 +209,7 @@ async fn selection_returns_the_cheapest_feasible_combination_checked_by_simulati
 
 #[tokio::test]
 async fn a_target_no_stocked_part_meets_is_an_answer_with_reasons() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let mut request = shop_request();
     request["target"] = json!({ "max_landing_speed_m_per_s": 0.001 });
     let body = app.post_ok("/v1/select", &request).await;
@@ -227,7 +227,7 @@ async fn a_target_no_stocked_part_meets_is_an_answer_with_reasons() {
 
 #[tokio::test]
 async fn bad_selections_are_refused_by_field() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let mut empty = shop_request();
     empty["parts"]["tubes"] = json!([]);
     let p = expect_problem(app.post_json("/v1/select", &empty).await, 422).await;
@@ -275,7 +275,7 @@ fn has_runaway(details: &Value) -> bool {
 
 #[tokio::test]
 async fn runaway_is_flagged_by_simulate_and_on_each_sweep_point() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     // The force curve decides it: no terminal speed (the load is above the peak force).
     let curve = app
         .post_ok("/v1/force-curve", &json!({ "design": runaway_design() }))
@@ -320,7 +320,7 @@ async fn runaway_is_flagged_by_simulate_and_on_each_sweep_point() {
 
 #[tokio::test]
 async fn whole_numbers_stay_whole() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     // from 1 to 6 in 4 steps gives 2.667 and 4.333: refused, naming the axis.
     let p = expect_problem(
         app.post_json(

@@ -5,7 +5,9 @@
 //! hostile client would. Every wait is bounded; the assertions are on outcomes and on order,
 //! with generous bounds relative to the configured timeouts, never on tight wall-clock times.
 
-use crate::helpers::{Logs, expect_problem, spawn_app_with, spawn_app_with_file_limit};
+use crate::helpers::{
+    Logs, expect_problem, spawn_binary_with, spawn_binary_with_file_limit, start_app_with,
+};
 use reqwest::Client;
 use std::time::{Duration, Instant};
 use tokio::io::{AsyncReadExt, AsyncWriteExt};
@@ -53,12 +55,7 @@ fn fresh_client() -> Client {
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn silent_and_slow_connections_are_closed_and_a_kept_alive_one_is_served() {
     // Header-read timeout 1 s, idle timeout 4 s.
-    let app = spawn_app_with(
-        &["--header-read-timeout-s", "1", "--idle-timeout-s", "4"],
-        &[],
-        Logs::Quiet,
-    )
-    .await;
+    let app = start_app_with(&["--header-read-timeout-s", "1", "--idle-timeout-s", "4"]).await;
     let started = Instant::now();
     let base = app.base.clone();
     // A connection that never sends anything: closed by the idle timeout.
@@ -153,12 +150,7 @@ async fn silent_and_slow_connections_are_closed_and_a_kept_alive_one_is_served()
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn a_slow_body_is_cut_within_the_request_timeout_on_every_route() {
     // Request timeout 1 s (the backstop answers at 1 s plus its 2 s margin).
-    let app = spawn_app_with(
-        &["--request-timeout-s", "1", "--idle-timeout-s", "120"],
-        &[],
-        Logs::Quiet,
-    )
-    .await;
+    let app = start_app_with(&["--request-timeout-s", "1", "--idle-timeout-s", "120"]).await;
     // A cached route (the cache reads the body) and an uncached one (the endpoint does).
     for path in ["/v1/force-curve", "/v1/sweep"] {
         let mut s = connect(&app.base).await;
@@ -184,7 +176,7 @@ async fn a_slow_body_is_cut_within_the_request_timeout_on_every_route() {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn the_connection_cap_refuses_early_and_frees_up() {
-    let app = spawn_app_with(&["--max-connections", "4"], &[], Logs::Quiet).await;
+    let app = start_app_with(&["--max-connections", "4"]).await;
     // Four connections, each proven served (so the server holds them), then kept open.
     let mut held = Vec::new();
     for _ in 0..4 {
@@ -238,7 +230,7 @@ async fn the_connection_cap_refuses_early_and_frees_up() {
 async fn a_partial_head_does_not_hold_shutdown() {
     // Long header-read and idle timeouts (120 s) and the default 60 s request timeout: the
     // old drain (request timeout + 5 s) would have waited 65 s for the partial head.
-    let mut app = spawn_app_with(
+    let mut app = spawn_binary_with(
         &["--header-read-timeout-s", "120", "--idle-timeout-s", "120"],
         &[],
         Logs::Quiet,
@@ -261,7 +253,7 @@ async fn a_partial_head_does_not_hold_shutdown() {
     assert!(buf[..n].starts_with(b"HTTP/1.1 200"));
     let signalled = Instant::now();
     app.terminate();
-    let status = tokio::time::timeout(Duration::from_secs(30), app.child.wait())
+    let status = tokio::time::timeout(Duration::from_secs(30), app.child().wait())
         .await
         .expect("exits well before the header and request timeouts")
         .expect("wait");
@@ -280,7 +272,7 @@ async fn a_partial_head_does_not_hold_shutdown() {
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn a_low_file_limit_lowers_the_cap_instead_of_exhausting_descriptors() {
     // 200 files: the cap (1024 asked) is lowered to 200 - 64 reserved - 32 refusal slots.
-    let app = spawn_app_with_file_limit(200, &["--idle-timeout-s", "120"]).await;
+    let app = spawn_binary_with_file_limit(200, &["--idle-timeout-s", "120"]).await;
     let cap = 200 - 64 - 32;
     // 300 connections, each one kept-alive request, all held open: more than the process
     // could hold if the server accepted them all.

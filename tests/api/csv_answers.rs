@@ -1,31 +1,15 @@
 //! CSV answers (`Accept: text/csv`): RFC 4180 tables with a header row whose names carry the
 //! units, one row per point, the same numbers as the JSON answer.
 
-use crate::helpers::{TestApp, sample_design, spawn_app};
+use crate::helpers::{TestApp, expect_ok_as, post_accepting, sample_design, start_app};
 use serde_json::{Value, json};
 
 /// The CSV answer of `POST path`, checked to be `text/csv`, split into records and fields.
 /// The fields here hold no quotes (errors are checked separately).
 async fn post_csv(app: &TestApp, path: &str, body: &Value) -> Vec<Vec<String>> {
-    let response = app
-        .client
-        .post(format!("{}{path}", app.base))
-        .header("accept", "text/csv")
-        .json(body)
-        .send()
-        .await
-        .expect("request sent");
-    let status = response.status().as_u16();
-    let content_type = response
-        .headers()
-        .get("content-type")
-        .and_then(|v| v.to_str().ok())
-        .unwrap_or_default()
-        .to_string();
-    let text = response.text().await.expect("body");
-    assert_eq!(status, 200, "{text}");
+    let response = post_accepting(app, path, "text/csv", body).await;
+    let (content_type, text) = expect_ok_as(response, "text/csv").await;
     // source: RFC 4180, section 3 (media type text/csv, optional charset and header).
-    assert!(content_type.starts_with("text/csv"), "{content_type}");
     assert!(content_type.contains("header=present"), "{content_type}");
     // source: RFC 4180, section 2, rule 1: records end with CRLF.
     assert!(text.ends_with("\r\n"), "{text:?}");
@@ -47,7 +31,7 @@ fn num(field: &str) -> f64 {
 
 #[tokio::test]
 async fn a_force_curve_as_csv_has_one_row_per_speed() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let request = json!({ "design": sample_design(), "speeds_m_per_s": [0.0, 0.1, 1.0, 10.0] });
     let json = app.post_ok("/v1/force-curve", &request).await;
     let rows = post_csv(&app, "/v1/force-curve", &request).await;
@@ -67,7 +51,7 @@ async fn a_force_curve_as_csv_has_one_row_per_speed() {
 
 #[tokio::test]
 async fn a_stroke_as_csv_has_the_series_columns() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let request = json!({ "design": sample_design(), "samples": 50 });
     let json = app.post_ok("/v1/simulate", &request).await;
     let rows = post_csv(&app, "/v1/simulate", &request).await;
@@ -107,7 +91,7 @@ async fn a_stroke_as_csv_has_the_series_columns() {
 
 #[tokio::test]
 async fn a_sweep_as_csv_carries_inputs_then_metrics_in_the_asked_order() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     // Metrics asked in non-alphabetical order; a point that fails (magnet wider than the bore)
     // keeps its row with empty metrics and its error quoted.
     let request = json!({
@@ -131,14 +115,8 @@ async fn a_sweep_as_csv_carries_inputs_then_metrics_in_the_asked_order() {
         first.find("terminal_speed").expect("listed") < first.find("damping").expect("listed"),
         "{first}"
     );
-    let text = app
-        .client
-        .post(format!("{}/v1/sweep", app.base))
-        .header("accept", "text/csv")
-        .json(&request)
-        .send()
+    let text = post_accepting(&app, "/v1/sweep", "text/csv", &request)
         .await
-        .expect("sent")
         .text()
         .await
         .expect("body");

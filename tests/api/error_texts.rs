@@ -2,7 +2,9 @@
 //! Rust type names, the nearest material and grade ids, the non-ferrous alternatives, and no
 //! doubled punctuation.
 
-use crate::helpers::{TestApp, expect_problem, sample_design, spawn_app};
+use crate::helpers::{
+    TestApp, expect_problem, post_accepting, request_with_design, sample_design, start_app,
+};
 use serde_json::{Value, json};
 
 /// The message of the field at `path` in the problem answering `body`.
@@ -17,22 +19,16 @@ async fn message_for(app: &TestApp, body: &Value, path: &str) -> (String, Value)
     (message, problem)
 }
 
-fn design_with(edit: impl FnOnce(&mut Value)) -> Value {
-    let mut design = sample_design();
-    edit(&mut design);
-    json!({ "design": design })
-}
-
 #[tokio::test]
 async fn a_millimetre_figure_in_a_metre_field_says_how_to_write_it() {
-    let app = spawn_app().await;
-    let body = design_with(|d| d["magnets"]["outer_diameter_m"] = json!(12));
+    let app = start_app().await;
+    let body = request_with_design(|d| d["magnets"]["outer_diameter_m"] = json!(12));
     let (message, _) = message_for(&app, &body, "design.magnets.outer_diameter_m").await;
     assert!(
         message.contains("12 m is above the limit of 1 m; this field is in metres (12 mm = 0.012)"),
         "{message}"
     );
-    let body = design_with(|d| d["tube"]["length_m"] = json!(300));
+    let body = request_with_design(|d| d["tube"]["length_m"] = json!(300));
     let (message, _) = message_for(&app, &body, "design.tube.length_m").await;
     assert_eq!(
         message,
@@ -42,11 +38,11 @@ async fn a_millimetre_figure_in_a_metre_field_says_how_to_write_it() {
 
 #[tokio::test]
 async fn wrong_types_are_said_in_json_words() {
-    let app = spawn_app().await;
-    let body = design_with(|d| d["tube"]["inner_diameter_m"] = json!("13 mm"));
+    let app = start_app().await;
+    let body = request_with_design(|d| d["tube"]["inner_diameter_m"] = json!("13 mm"));
     let (message, problem) = message_for(&app, &body, "design.tube.inner_diameter_m").await;
     assert_eq!(message, r#"must be a number, not the text "13 mm""#);
-    let body = design_with(|d| d["magnets"]["count"] = json!(2.5));
+    let body = request_with_design(|d| d["magnets"]["count"] = json!(2.5));
     let (message, _) = message_for(&app, &body, "design.magnets.count").await;
     assert!(message.starts_with("must be a whole number"), "{message}");
     for answer in [problem.to_string(), message] {
@@ -58,21 +54,21 @@ async fn wrong_types_are_said_in_json_words() {
 
 #[tokio::test]
 async fn unknown_materials_and_grades_get_the_nearest_ids() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     // The American spelling is the same material.
-    let body = design_with(|d| d["tube"]["material"] = json!("aluminum-6061-t6"));
+    let body = request_with_design(|d| d["tube"]["material"] = json!("aluminum-6061-t6"));
     app.post_ok("/v1/force-curve", &body).await;
     // An alloy without its temper is suggested, not guessed (the temper moves the conductivity).
-    let body = design_with(|d| d["tube"]["material"] = json!("6061"));
+    let body = request_with_design(|d| d["tube"]["material"] = json!("6061"));
     let (message, _) = message_for(&app, &body, "design.tube.material").await;
     assert!(
         message.contains("did you mean 'aluminium-6061-t6'?"),
         "{message}"
     );
-    let body = design_with(|d| d["tube"]["material"] = json!("coper-c12200"));
+    let body = request_with_design(|d| d["tube"]["material"] = json!("coper-c12200"));
     let (message, _) = message_for(&app, &body, "design.tube.material").await;
     assert!(message.contains("'copper-c12200'"), "{message}");
-    let body = design_with(|d| d["magnets"]["grade"] = json!("N43"));
+    let body = request_with_design(|d| d["magnets"]["grade"] = json!("N43"));
     let (message, _) = message_for(&app, &body, "design.magnets.grade").await;
     assert!(
         message.contains("did you mean") && message.contains("'N42'"),
@@ -82,8 +78,8 @@ async fn unknown_materials_and_grades_get_the_nearest_ids() {
 
 #[tokio::test]
 async fn the_ferromagnetic_refusal_names_the_non_ferrous_rows() {
-    let app = spawn_app().await;
-    let body = design_with(|d| d["tube"]["material"] = json!("stainless-430"));
+    let app = start_app().await;
+    let body = request_with_design(|d| d["tube"]["material"] = json!("stainless-430"));
     let (message, _) = message_for(&app, &body, "design.tube.material").await;
     assert!(message.contains("ferromagnetic"), "{message}");
     assert!(
@@ -104,7 +100,7 @@ async fn the_ferromagnetic_refusal_names_the_non_ferrous_rows() {
 
 #[tokio::test]
 async fn no_message_doubles_its_punctuation() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let mut design = sample_design();
     design["magnets"]["outer_diameter_m"] = json!(12);
     design["tube"]["material"] = json!("mild-steel");
@@ -125,17 +121,17 @@ async fn no_message_doubles_its_punctuation() {
         )
         .await,
         expect_problem(
-            app.client
-                .post(format!("{}/v1/sweep", app.base))
-                .header("accept", "image/svg+xml")
-                .json(&json!({
+            post_accepting(
+                &app,
+                "/v1/sweep",
+                "image/svg+xml",
+                &json!({
                     "design": sample_design(),
                     "vary": body["vary"],
                     "metrics": body["metrics"]
-                }))
-                .send()
-                .await
-                .expect("sent"),
+                }),
+            )
+            .await,
             422,
         )
         .await,

@@ -6,17 +6,10 @@
 //! Problem Details for HTTP APIs, 2023.
 
 use crate::helpers::{
-    Logs, PROBLEM_JSON, error_paths, expect_problem, heavy_force_curve, sample_design, spawn_app,
-    spawn_app_with,
+    PROBLEM_JSON, error_paths, expect_problem, heavy_force_curve, request_with_design,
+    sample_design, start_app, start_app_with,
 };
 use serde_json::{Value, json};
-
-/// A force-curve request whose design is modified by `edit`.
-fn with_design(edit: impl FnOnce(&mut Value)) -> Value {
-    let mut design = sample_design();
-    edit(&mut design);
-    json!({ "design": design })
-}
 
 /// Posts `body` to `path` and expects 422 naming `path_named` among the errors.
 async fn expect_named(
@@ -39,8 +32,8 @@ async fn expect_named(
 
 #[tokio::test]
 async fn the_problem_document_has_the_rfc_9457_members() {
-    let app = spawn_app().await;
-    let body = with_design(|d| d["tube"]["inner_diameter_m"] = json!(-0.013));
+    let app = start_app().await;
+    let body = request_with_design(|d| d["tube"]["inner_diameter_m"] = json!(-0.013));
     let response = app.post_json("/v1/force-curve", &body).await;
     assert!(response.headers().get("x-request-id").is_some());
     let problem = expect_problem(response, 422).await;
@@ -68,73 +61,73 @@ async fn the_problem_document_has_the_rfc_9457_members() {
 
 #[tokio::test]
 async fn invalid_designs_name_the_field() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let cases: Vec<(Value, &str)> = vec![
         (
-            with_design(|d| d["magnets"]["outer_diameter_m"] = json!(0.0)),
+            request_with_design(|d| d["magnets"]["outer_diameter_m"] = json!(0.0)),
             "design.magnets.outer_diameter_m",
         ),
         (
-            with_design(|d| d["magnets"]["length_m"] = json!(-0.02)),
+            request_with_design(|d| d["magnets"]["length_m"] = json!(-0.02)),
             "design.magnets.length_m",
         ),
         (
-            with_design(|d| d["tube"]["wall_thickness_m"] = json!(0)),
+            request_with_design(|d| d["tube"]["wall_thickness_m"] = json!(0)),
             "design.tube.wall_thickness_m",
         ),
         (
-            with_design(|d| d["tube"]["length_m"] = json!(-1)),
+            request_with_design(|d| d["tube"]["length_m"] = json!(-1)),
             "design.tube.length_m",
         ),
         // NaN and numbers as strings: JSON has no NaN, and a string is not a number.
         (
-            with_design(|d| d["magnets"]["length_m"] = json!("NaN")),
+            request_with_design(|d| d["magnets"]["length_m"] = json!("NaN")),
             "design.magnets.length_m",
         ),
         (
-            with_design(|d| d["tube"]["inner_diameter_m"] = json!("0.013")),
+            request_with_design(|d| d["tube"]["inner_diameter_m"] = json!("0.013")),
             "design.tube.inner_diameter_m",
         ),
         (
-            with_design(|d| d["load"]["incline_deg"] = json!("Infinity")),
+            request_with_design(|d| d["load"]["incline_deg"] = json!("Infinity")),
             "design.load.incline_deg",
         ),
         // A magnet wider than the bore.
         (
-            with_design(|d| d["magnets"]["outer_diameter_m"] = json!(0.014)),
+            request_with_design(|d| d["magnets"]["outer_diameter_m"] = json!(0.014)),
             "design.magnets.outer_diameter_m",
         ),
         // A ring bore wider than the ring.
         (
-            with_design(|d| d["magnets"]["inner_diameter_m"] = json!(0.013)),
+            request_with_design(|d| d["magnets"]["inner_diameter_m"] = json!(0.013)),
             "design.magnets.inner_diameter_m",
         ),
         (
-            with_design(|d| d["tube"]["material"] = json!("unobtainium")),
+            request_with_design(|d| d["tube"]["material"] = json!("unobtainium")),
             "design.tube.material",
         ),
         (
-            with_design(|d| d["magnets"]["grade"] = json!("N99")),
+            request_with_design(|d| d["magnets"]["grade"] = json!("N99")),
             "design.magnets.grade",
         ),
         (
-            with_design(|d| d["magnets"]["count"] = json!(1_000_000)),
+            request_with_design(|d| d["magnets"]["count"] = json!(1_000_000)),
             "design.magnets.count",
         ),
         (
-            with_design(|d| d["magnets"]["count"] = json!(-1)),
+            request_with_design(|d| d["magnets"]["count"] = json!(-1)),
             "design.magnets.count",
         ),
         (
-            with_design(|d| d["magnets"]["polarity"] = json!("sideways")),
+            request_with_design(|d| d["magnets"]["polarity"] = json!("sideways")),
             "design.magnets.polarity",
         ),
         (
-            with_design(|d| d["tube"]["perforation_fraction"] = json!(0.9)),
+            request_with_design(|d| d["tube"]["perforation_fraction"] = json!(0.9)),
             "design.tube.perforation_fraction",
         ),
         (
-            with_design(|d| d["tube"]["temperature_c"] = json!(1e6)),
+            request_with_design(|d| d["tube"]["temperature_c"] = json!(1e6)),
             "design.tube.temperature_c",
         ),
     ];
@@ -164,9 +157,9 @@ async fn invalid_designs_name_the_field() {
 
 #[tokio::test]
 async fn a_ferromagnetic_tube_is_refused_with_the_reason() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     for material in ["mild-steel", "stainless-430", "iron"] {
-        let body = with_design(|d| d["tube"]["material"] = json!(material));
+        let body = request_with_design(|d| d["tube"]["material"] = json!(material));
         let problem = expect_named(&app, "/v1/force-curve", &body, "design.tube.material").await;
         let message = problem["errors"][0]["message"].as_str().unwrap_or_default();
         assert!(message.contains("ferromagnetic"), "{material}: {message}");
@@ -176,12 +169,12 @@ async fn a_ferromagnetic_tube_is_refused_with_the_reason() {
 
 #[tokio::test]
 async fn unknown_fields_are_rejected_by_path() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let mut body = json!({ "design": sample_design(), "speed": [1.0] });
     expect_named(&app, "/v1/force-curve", &body, "speed").await;
-    body = with_design(|d| d["tube"]["colour"] = json!("red"));
+    body = request_with_design(|d| d["tube"]["colour"] = json!("red"));
     expect_named(&app, "/v1/force-curve", &body, "design.tube.colour").await;
-    body = with_design(|d| d["magnets"]["outer_diameter_mm"] = json!(12));
+    body = request_with_design(|d| d["magnets"]["outer_diameter_mm"] = json!(12));
     expect_named(
         &app,
         "/v1/force-curve",
@@ -192,7 +185,7 @@ async fn unknown_fields_are_rejected_by_path() {
     body = json!({ "design": sample_design(), "start": { "position": 0.0 } });
     expect_named(&app, "/v1/simulate", &body, "start.position").await;
     // A missing required field is named too.
-    body = with_design(|d| {
+    body = request_with_design(|d| {
         d["tube"]
             .as_object_mut()
             .map(|t| t.remove("inner_diameter_m"));
@@ -210,7 +203,7 @@ async fn unknown_fields_are_rejected_by_path() {
 
 #[tokio::test]
 async fn bad_job_options_are_named() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let design = sample_design();
     let cases = [
         (
@@ -288,7 +281,7 @@ async fn bad_job_options_are_named() {
 
 #[tokio::test]
 async fn enormous_jobs_are_refused_by_the_limits() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let design = sample_design();
     let speeds: Vec<f64> = (0..2001).map(|i| i as f64 * 0.001).collect();
     let cases = [
@@ -320,7 +313,7 @@ async fn enormous_jobs_are_refused_by_the_limits() {
 
 #[tokio::test]
 async fn malformed_bodies_are_400() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let truncated = r#"{"design": {"magnets": {"grade": "N42", "outer_di"#;
     let trailing = format!("{} {{", json!({ "design": sample_design() }));
     for body in [
@@ -346,7 +339,7 @@ async fn malformed_bodies_are_400() {
 
 #[tokio::test]
 async fn deeply_nested_json_is_refused_without_harm() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let depth = 100_000;
     let nested = format!("{{\"design\": {}{}}}", "[".repeat(depth), "]".repeat(depth));
     let bare = format!("{}{}", "{\"a\":".repeat(depth), "}".repeat(depth));
@@ -370,7 +363,7 @@ async fn deeply_nested_json_is_refused_without_harm() {
 
 #[tokio::test]
 async fn an_oversized_body_is_413() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     // 1.5 MiB of valid JSON, above the default 1 MiB limit.
     let filler = "0.5,".repeat(400_000);
     let body = format!(
@@ -398,7 +391,7 @@ async fn an_oversized_body_is_413() {
 
 #[tokio::test]
 async fn a_configured_body_limit_is_honoured() {
-    let app = spawn_app_with(&["--max-body-bytes", "2048"], &[], Logs::Quiet).await;
+    let app = start_app_with(&["--max-body-bytes", "2048"]).await;
     let small = json!({ "design": sample_design(), "speeds_m_per_s": [1.0] });
     app.post_ok("/v1/force-curve", &small).await;
     let big = heavy_force_curve(500);
@@ -408,7 +401,7 @@ async fn a_configured_body_limit_is_honoured() {
 
 #[tokio::test]
 async fn the_wrong_content_type_is_415() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body = json!({ "design": sample_design() }).to_string();
     for content_type in [
         Some("text/plain"),
@@ -442,7 +435,7 @@ async fn the_wrong_content_type_is_415() {
 
 #[tokio::test]
 async fn unknown_routes_and_methods_answer_problems() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let problem = expect_problem(app.get("/v1/nothing-here").await, 404).await;
     assert_eq!(problem["instance"], "/v1/nothing-here");
     // The job routes exist: an empty body is a request without its design.

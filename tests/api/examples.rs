@@ -4,7 +4,7 @@
 //! checked to compute complete records (their geometries - rings, spacers, perforation, hot
 //! aluminium - have no outside reference here).
 
-use crate::helpers::{G0, error_paths, expect_problem, rel, spawn_app};
+use crate::helpers::{G0, error_paths, expect_problem, rel, start_app};
 use serde_json::Value;
 use std::path::PathBuf;
 
@@ -72,7 +72,7 @@ const COPPER_DROP_MASS_KG: f64 = 7500.0 * std::f64::consts::PI * 0.006 * 0.006 *
 
 #[tokio::test]
 async fn the_copper_drop_force_curve_example_matches_the_exact_tube_integral() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body = app
         .post_ok("/v1/force-curve", &example("force-curve-copper-drop.json"))
         .await;
@@ -96,7 +96,7 @@ async fn the_copper_drop_force_curve_example_matches_the_exact_tube_integral() {
 
 #[tokio::test]
 async fn the_aluminium_stack_force_curve_example_computes_every_speed() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let request = example("force-curve-aluminium-stack.json");
     let body = app.post_ok("/v1/force-curve", &request).await;
     let points = body["points"].as_array().expect("points");
@@ -117,7 +117,7 @@ async fn the_aluminium_stack_force_curve_example_computes_every_speed() {
 
 #[tokio::test]
 async fn the_copper_drop_stroke_example_settles_at_the_exact_terminal_speed() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body = app
         .post_ok("/v1/simulate", &example("simulate-copper-drop.json"))
         .await;
@@ -139,7 +139,7 @@ async fn the_copper_drop_stroke_example_settles_at_the_exact_terminal_speed() {
 
 #[tokio::test]
 async fn the_incline_carriage_example_computes_a_balanced_stroke() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body = app
         .post_ok("/v1/simulate", &example("simulate-incline-carriage.json"))
         .await;
@@ -158,7 +158,7 @@ async fn the_incline_carriage_example_computes_a_balanced_stroke() {
 
 #[tokio::test]
 async fn the_invalid_example_names_its_faults() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let response = app
         .post_json(
             "/v1/force-curve",
@@ -174,7 +174,7 @@ async fn the_invalid_example_names_its_faults() {
 
 #[tokio::test]
 async fn the_sweep_examples_compute() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     for (name, points) in [
         ("sweep-wall-thickness.json", 8),
         ("sweep-wall-and-payload.json", 24),
@@ -188,7 +188,7 @@ async fn the_sweep_examples_compute() {
 
 #[tokio::test]
 async fn the_sizing_example_finds_a_wall() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body = app
         .post_ok("/v1/size", &example("size-wall-for-speed-limit.json"))
         .await;
@@ -198,7 +198,7 @@ async fn the_sizing_example_finds_a_wall() {
 
 #[tokio::test]
 async fn the_landing_speed_sizing_and_the_selection_examples_compute() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let size = app
         .post_ok(
             "/v1/size",

@@ -1,6 +1,6 @@
 //! `POST /v1/force-curve` against closed forms.
 
-use crate::helpers::{G0, MU0, rel, sample_design, spawn_app};
+use crate::helpers::{G0, MU0, rel, sample_design, start_app};
 use serde_json::{Value, json};
 
 /// An invented small-magnet case for the dipole laws: a 1 mm x 1 mm cylinder (Br 1.2 T) on the
@@ -32,7 +32,7 @@ fn small_magnet_moment() -> f64 {
 
 #[tokio::test]
 async fn damping_of_a_small_magnet_follows_the_thin_wall_dipole_law() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let (a, w, sigma): (f64, f64, f64) = (0.020, 0.0001, 5.8e7);
     let body = app
         .post_ok(
@@ -66,7 +66,7 @@ async fn damping_of_a_small_magnet_follows_the_thin_wall_dipole_law() {
 
 #[tokio::test]
 async fn damping_of_a_small_magnet_follows_the_thick_wall_dipole_law() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let (a, w, sigma): (f64, f64, f64) = (0.020, 0.004, 3.0e7);
     let b = a + w;
     let body = app
@@ -89,7 +89,7 @@ async fn damping_of_a_small_magnet_follows_the_thick_wall_dipole_law() {
 
 #[tokio::test]
 async fn damping_is_proportional_to_conductivity() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let mut values = Vec::new();
     for sigma in [1.0e7, 2.0e7] {
         let mut design = sample_design();
@@ -111,7 +111,7 @@ async fn damping_is_proportional_to_conductivity() {
 
 #[tokio::test]
 async fn terminal_speed_balances_the_weight_and_the_record_is_complete() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body = app
         .post_ok("/v1/force-curve", &json!({ "design": sample_design() }))
         .await;
@@ -185,7 +185,7 @@ async fn terminal_speed_balances_the_weight_and_the_record_is_complete() {
 
 #[tokio::test]
 async fn requested_speeds_come_back_in_order() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let speeds = [2.0, 0.5, 0.0, 7.0];
     let body = app
         .post_ok(
@@ -207,7 +207,7 @@ async fn requested_speeds_come_back_in_order() {
 
 #[tokio::test]
 async fn a_load_above_the_peak_force_is_a_runaway_with_a_caution() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let mut design = sample_design();
     design["load"]["payload_mass_kg"] = json!(1000.0);
     let body = app
@@ -309,7 +309,7 @@ async fn high_speed_curve_matches_the_exact_tube_integral() {
 }
 
 async fn app_post_curve(design: &Value, speeds: &[f64]) -> Value {
-    spawn_app()
+    start_app()
         .await
         .post_ok(
             "/v1/force-curve",

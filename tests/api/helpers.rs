@@ -1,14 +1,27 @@
-//! Starting the real `ringdrag` binary on a free port, and a small client for it.
+//! The test servers, and a small client for them.
 //!
-//! `spawn_app()` runs the binary Cargo built for this test (`CARGO_BIN_EXE_ringdrag`) with
-//! `--listen 127.0.0.1:0`, reads its one `ringdrag listening on http://ADDR` line, and kills it
-//! when the returned [`TestApp`] is dropped. Every `RINGDRAG_*` variable of the test's own
-//! environment is removed, so that the settings are exactly the arguments given. Set
-//! `RINGDRAG_TEST_LOG=1` to see the servers' logs.
+//! [`start_app`] and [`start_app_with`] serve the real application in this test process: the
+//! flags are parsed as `ringdrag` parses them (the test process's own `RINGDRAG_*` variables
+//! are ignored, so the settings are exactly the flags given), a listener is bound on
+//! `127.0.0.1:0`, and [`ringdrag_service::serve`] (the function `main` calls: the router, the
+//! connection handling, the drain) runs on a runtime of its own, with a metrics recorder of
+//! its own (set on each of that runtime's threads) so that servers running side by side count
+//! apart. The server stops when the returned [`TestApp`] is dropped.
+//!
+//! [`spawn_binary_with`] instead runs the binary Cargo built for this test
+//! (`CARGO_BIN_EXE_ringdrag`) and reads its `ringdrag listening on http://ADDR` line; it is
+//! kept for what needs a process of its own (the start-up line, signals and the drain, the
+//! environment fallbacks, the JSON logs, the open-file limit, refusals at start-up), and the
+//! process is killed when the [`TestApp`] is dropped.
+//!
+//! Set `RINGDRAG_TEST_LOG=1` to see the servers' logs.
 
+use clap::{CommandFactory, FromArgMatches};
 use reqwest::{Client, Response, StatusCode};
+use ringdrag_service::{Config, priority, telemetry};
 use serde_json::{Value, json};
 use std::process::Stdio;
+use std::sync::Once;
 use std::time::Duration;
 use tokio::io::{AsyncBufReadExt, BufReader};
 use tokio::process::{Child, Command};
@@ -22,11 +35,31 @@ pub(crate) struct TestApp {
     pub(crate) base: String,
     /// HTTP client.
     pub(crate) client: Client,
-    /// The server process (killed on drop).
-    pub(crate) child: Child,
+    /// The server (stopped on drop).
+    server: Server,
 }
 
-/// Where the server's standard error goes.
+/// Where a test server runs.
+enum Server {
+    /// In this process, on its own runtime (shut down on drop).
+    InProcess(Option<tokio::runtime::Runtime>),
+    /// A child process (killed on drop).
+    Binary(Child),
+}
+
+impl Drop for Server {
+    fn drop(&mut self) {
+        if let Self::InProcess(runtime) = self
+            && let Some(runtime) = runtime.take()
+        {
+            // Drops the accept loop and every connection task; computations still running
+            // on the blocking pool end at their deadline.
+            runtime.shutdown_background();
+        }
+    }
+}
+
+/// Where a binary server's standard error goes.
 pub(crate) enum Logs {
     /// Dropped (or shown when `RINGDRAG_TEST_LOG` is set).
     Quiet,
@@ -34,13 +67,94 @@ pub(crate) enum Logs {
     File(std::fs::File),
 }
 
-/// Starts the server with default settings.
-pub(crate) async fn spawn_app() -> TestApp {
-    spawn_app_with(&[], &[], Logs::Quiet).await
+/// Set-up that is global to the process and done once for all in-process servers, as `main`
+/// does it once: the computing thread pool, and (with `RINGDRAG_TEST_LOG`) a log subscriber.
+fn init_process() {
+    static INIT: Once = Once::new();
+    INIT.call_once(|| {
+        // rayon's pool of lowered-priority computing threads, as `priority::init_compute_pool`
+        // builds it for the binary, but with as many threads as the servers of two test
+        // threads would have in processes of their own: sharing one pool of two, one test's
+        // sweep would queue behind another's. An error means the pool already exists.
+        let threads = 2 * std::thread::available_parallelism().map_or(2, usize::from);
+        let _ = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .thread_name(|i| format!("ringdrag-compute-{i}"))
+            .start_handler(|_| priority::lower_current_thread())
+            .build_global();
+        if std::env::var_os("RINGDRAG_TEST_LOG").is_some() {
+            let _ = telemetry::init_tracing(ringdrag_service::config::LogFormat::Text);
+        }
+    });
 }
 
-/// Starts the server with extra arguments and environment variables.
-pub(crate) async fn spawn_app_with(args: &[&str], env: &[(&str, &str)], logs: Logs) -> TestApp {
+/// The configuration `ringdrag ARGS` would have with no `RINGDRAG_*` variable set.
+///
+/// # Errors
+/// The parser's message, as the binary would print it.
+pub(crate) fn parse_flags(args: &[&str]) -> Result<Config, String> {
+    let command = Config::command().mut_args(|arg| arg.env(None::<&str>));
+    let matches = command
+        .try_get_matches_from(std::iter::once("ringdrag").chain(args.iter().copied()))
+        .map_err(|e| e.to_string())?;
+    Config::from_arg_matches(&matches).map_err(|e| e.to_string())
+}
+
+/// Starts the application in process with default settings.
+pub(crate) async fn start_app() -> TestApp {
+    start_app_with(&[]).await
+}
+
+/// Starts the application in process with the flags `args` (as `ringdrag` takes them).
+pub(crate) async fn start_app_with(args: &[&str]) -> TestApp {
+    init_process();
+    let config = parse_flags(args).unwrap_or_else(|e| panic!("bad test flags {args:?}: {e}"));
+    let recorder = telemetry::metrics_recorder().expect("metrics recorder builds");
+    let metrics = recorder.handle();
+    // Leaked: the recorder must outlive every thread of the runtime that records into it
+    // (a few kilobytes per test server).
+    let recorder: &'static _ = Box::leak(Box::new(recorder));
+    let runtime = tokio::runtime::Builder::new_multi_thread()
+        .worker_threads(2)
+        .thread_name("test-server")
+        .enable_all()
+        .on_thread_start(move || {
+            // Kept for the thread's life: this thread records into this server's recorder.
+            std::mem::forget(metrics::set_default_local_recorder(recorder));
+        })
+        .build()
+        .expect("server runtime starts");
+    let listener = std::net::TcpListener::bind("127.0.0.1:0").expect("ephemeral port bound");
+    let address = listener.local_addr().expect("bound address");
+    listener
+        .set_nonblocking(true)
+        .expect("non-blocking listener");
+    runtime.spawn(async move {
+        telemetry::describe_metrics();
+        let listener = tokio::net::TcpListener::from_std(listener).expect("listener registered");
+        // Served until the runtime is shut down (when the TestApp is dropped).
+        let served = ringdrag_service::serve(listener, &config, metrics, std::future::pending());
+        if let Err(e) = served.await {
+            panic!("the test server failed: {e:#}");
+        }
+    });
+    TestApp {
+        base: format!("http://{address}"),
+        client: client(),
+        server: Server::InProcess(Some(runtime)),
+    }
+}
+
+fn client() -> Client {
+    Client::builder()
+        .timeout(Duration::from_secs(120))
+        .build()
+        .expect("client builds")
+}
+
+/// Starts the binary with extra arguments and environment variables (every `RINGDRAG_*`
+/// variable of the test's own environment removed).
+pub(crate) async fn spawn_binary_with(args: &[&str], env: &[(&str, &str)], logs: Logs) -> TestApp {
     spawn(
         Command::new(env!("CARGO_BIN_EXE_ringdrag")),
         args,
@@ -50,9 +164,9 @@ pub(crate) async fn spawn_app_with(args: &[&str], env: &[(&str, &str)], logs: Lo
     .await
 }
 
-/// Starts the server through `sh` under an open-file limit of `files` (soft and hard), as a
+/// Starts the binary through `sh` under an open-file limit of `files` (soft and hard), as a
 /// host with a low limit would run it.
-pub(crate) async fn spawn_app_with_file_limit(files: u64, args: &[&str]) -> TestApp {
+pub(crate) async fn spawn_binary_with_file_limit(files: u64, args: &[&str]) -> TestApp {
     let mut cmd = Command::new("sh");
     cmd.arg("-c")
         .arg(format!("ulimit -n {files} && exec \"$0\" \"$@\""))
@@ -97,11 +211,8 @@ async fn spawn(mut cmd: Command, args: &[&str], env: &[(&str, &str)], logs: Logs
     tokio::spawn(async move { while let Ok(Some(_)) = lines.next_line().await {} });
     TestApp {
         base: format!("http://{address}"),
-        client: Client::builder()
-            .timeout(Duration::from_secs(120))
-            .build()
-            .expect("client builds"),
-        child,
+        client: client(),
+        server: Server::Binary(child),
     }
 }
 
@@ -158,15 +269,55 @@ impl TestApp {
         assert_eq!(r.status(), StatusCode::OK, "server unhealthy");
     }
 
-    /// Sends SIGTERM to the server.
-    pub(crate) fn terminate(&self) {
-        let pid = self.child.id().expect("server running");
+    /// The server process of a binary server.
+    pub(crate) fn child(&mut self) -> &mut Child {
+        match &mut self.server {
+            Server::Binary(child) => child,
+            Server::InProcess(_) => panic!("an in-process server has no process"),
+        }
+    }
+
+    /// Sends SIGTERM to a binary server.
+    pub(crate) fn terminate(&mut self) {
+        let pid = self.child().id().expect("server running");
         let status = std::process::Command::new("kill")
             .args(["-TERM", &pid.to_string()])
             .status()
             .expect("kill runs");
         assert!(status.success(), "kill -TERM failed");
     }
+}
+
+/// `POST path` with a JSON body, asking for `accept` (content negotiation: CSV, SVG, PNG...).
+pub(crate) async fn post_accepting(
+    app: &TestApp,
+    path: &str,
+    accept: &str,
+    body: &Value,
+) -> Response {
+    app.client
+        .post(format!("{}{path}", app.base))
+        .header("accept", accept)
+        .json(body)
+        .send()
+        .await
+        .expect("request sent")
+}
+
+/// Asserts that `response` is 200 with a content type starting with `media`, and returns its
+/// content type and body text.
+pub(crate) async fn expect_ok_as(response: Response, media: &str) -> (String, String) {
+    let status = response.status().as_u16();
+    let content_type = response
+        .headers()
+        .get("content-type")
+        .and_then(|v| v.to_str().ok())
+        .unwrap_or_default()
+        .to_string();
+    let text = response.text().await.expect("body");
+    assert_eq!(status, 200, "{text}");
+    assert!(content_type.starts_with(media), "{content_type}");
+    (content_type, text)
 }
 
 /// Asserts that `response` is a problem document with `status`, and returns it.
@@ -225,29 +376,27 @@ pub(crate) fn sample_design() -> Value {
     })
 }
 
-/// A deliberately heavy force-curve request (an invented thick-walled stack, the largest
-/// radial resolution and `speeds` speeds), used to keep a job slot busy for a while.
+/// A request body `{"design": ...}` holding [`sample_design`] changed by `edit` (for the
+/// tests of one bad field at a time).
+pub(crate) fn request_with_design(edit: impl FnOnce(&mut Value)) -> Value {
+    let mut design = sample_design();
+    edit(&mut design);
+    json!({ "design": design })
+}
+
+/// A deliberately heavy force-curve request, used to keep a job slot busy for a while: the
+/// sample design made an invented stack of eight alternating magnets in a 10 mm wall, at the
+/// largest radial resolution and `speeds` speeds.
 pub(crate) fn heavy_force_curve(speeds: usize) -> Value {
     let speeds: Vec<f64> = (1..=speeds).map(|i| 0.01 * i as f64).collect();
-    json!({
-        "design": {
-            "magnets": {
-                "grade": "N42",
-                "outer_diameter_m": 0.012,
-                "length_m": 0.02,
-                "count": 8,
-                "polarity": "alternating"
-            },
-            "tube": {
-                "material": "copper-c12200",
-                "inner_diameter_m": 0.013,
-                "wall_thickness_m": 0.01,
-                "length_m": 0.3
-            }
-        },
-        "speeds_m_per_s": speeds,
-        "resolution": { "radial_layers": 32 }
-    })
+    let mut request = request_with_design(|d| {
+        d["magnets"]["count"] = json!(8);
+        d["magnets"]["polarity"] = json!("alternating");
+        d["tube"]["wall_thickness_m"] = json!(0.01);
+    });
+    request["speeds_m_per_s"] = json!(speeds);
+    request["resolution"] = json!({ "radial_layers": 32 });
+    request
 }
 
 /// Relative difference |a/b - 1|.

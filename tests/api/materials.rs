@@ -1,11 +1,11 @@
 //! `GET /v1/materials`: both tables, each row with its source, and every id usable in a design.
 
-use crate::helpers::{rel, sample_design, spawn_app};
+use crate::helpers::{rel, sample_design, start_app};
 use serde_json::{Value, json};
 
 #[tokio::test]
 async fn both_tables_with_sources() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let response = app.get("/v1/materials").await;
     assert_eq!(response.status().as_u16(), 200);
     assert!(
@@ -56,7 +56,7 @@ async fn both_tables_with_sources() {
 
 #[tokio::test]
 async fn every_listed_id_is_accepted_in_a_design() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body: Value = app.get("/v1/materials").await.json().await.expect("json");
     let speeds = json!([0.1]);
     for c in body["conductors"].as_array().expect("conductors") {

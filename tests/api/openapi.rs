@@ -4,7 +4,7 @@
 //! `cargo run --release -p ringdrag-service -- --print-openapi > openapi/openapi.json`
 //! or `RINGDRAG_WRITE_OPENAPI=1 cargo test --release -p ringdrag-service --test api openapi`.
 
-use crate::helpers::{expect_problem, heavy_force_curve, sample_design, spawn_app};
+use crate::helpers::{expect_problem, heavy_force_curve, sample_design, start_app};
 use serde_json::{Value, json};
 use std::path::PathBuf;
 
@@ -16,7 +16,7 @@ fn checked_in_path() -> PathBuf {
 }
 
 async fn served_document() -> (String, Value) {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let response = app.get("/openapi.json").await;
     assert_eq!(response.status().as_u16(), 200);
     let text = response.text().await.expect("body");
@@ -181,7 +181,7 @@ async fn schema_bounds_are_the_validator_bounds() {
     let samples_max = schemas["SimulateRequest"]["properties"]["samples"]["maximum"]
         .as_u64()
         .expect("samples maximum");
-    let app = spawn_app().await;
+    let app = start_app().await;
     // At the bounds: accepted. One past: refused, naming the field.
     app.post_ok("/v1/force-curve", &heavy_force_curve(max_items))
         .await;

@@ -1,14 +1,15 @@
 //! Health, readiness, metrics, request ids, logs, configuration and graceful shutdown.
 
 use crate::helpers::{
-    Logs, expect_problem, heavy_force_curve, sample_design, spawn_app, spawn_app_with,
+    Logs, expect_problem, heavy_force_curve, sample_design, spawn_binary_with, start_app,
+    start_app_with,
 };
 use serde_json::{Value, json};
 use std::time::Duration;
 
 #[tokio::test]
 async fn health_and_readiness() {
-    let app = spawn_app_with(&["--max-concurrent-jobs", "3"], &[], Logs::Quiet).await;
+    let app = start_app_with(&["--max-concurrent-jobs", "3"]).await;
     let health: Value = app.get("/healthz").await.json().await.expect("json");
     assert_eq!(health, json!({ "status": "ok" }));
     let ready = app.get("/readyz").await;
@@ -21,7 +22,7 @@ async fn health_and_readiness() {
 
 #[tokio::test]
 async fn metrics_count_requests_by_route_and_status() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     app.get("/healthz").await;
     app.post_ok("/v1/force-curve", &json!({ "design": sample_design() }))
         .await;
@@ -65,7 +66,7 @@ async fn metrics_count_requests_by_route_and_status() {
 
 #[tokio::test]
 async fn request_ids_are_kept_or_made() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let response = app
         .client
         .get(format!("{}/healthz", app.base))
@@ -97,7 +98,7 @@ async fn json_logs_carry_the_request_id() {
     let log_path =
         std::env::temp_dir().join(format!("ringdrag-json-log-{}.log", std::process::id()));
     let file = std::fs::File::create(&log_path).expect("log file");
-    let mut app = spawn_app_with(
+    let mut app = spawn_binary_with(
         &["--log-format", "json"],
         &[("RUST_LOG", "info")],
         Logs::File(file),
@@ -112,7 +113,7 @@ async fn json_logs_carry_the_request_id() {
         .expect("sent");
     assert_eq!(response.status().as_u16(), 200);
     app.terminate();
-    let status = tokio::time::timeout(Duration::from_secs(20), app.child.wait())
+    let status = tokio::time::timeout(Duration::from_secs(20), app.child().wait())
         .await
         .expect("exits after SIGTERM")
         .expect("wait");
@@ -132,7 +133,7 @@ async fn json_logs_carry_the_request_id() {
 
 #[tokio::test]
 async fn settings_fall_back_to_environment_variables() {
-    let app = spawn_app_with(&[], &[("RINGDRAG_MAX_SPEEDS", "3")], Logs::Quiet).await;
+    let app = spawn_binary_with(&[], &[("RINGDRAG_MAX_SPEEDS", "3")], Logs::Quiet).await;
     let ok = json!({ "design": sample_design(), "speeds_m_per_s": [0.1, 0.2, 0.3] });
     app.post_ok("/v1/force-curve", &ok).await;
     let over = json!({ "design": sample_design(), "speeds_m_per_s": [0.1, 0.2, 0.3, 0.4] });
@@ -148,7 +149,7 @@ async fn settings_fall_back_to_environment_variables() {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn sigterm_finishes_in_flight_requests_then_exits() {
-    let mut app = spawn_app_with(
+    let mut app = spawn_binary_with(
         &["--max-concurrent-jobs", "1", "--queue-wait-ms", "30000"],
         &[],
         Logs::Quiet,
@@ -184,7 +185,7 @@ async fn sigterm_finishes_in_flight_requests_then_exits() {
         assert_eq!(status, 200, "{value}");
         assert!(value["peak_force_n"].as_f64().is_some_and(|f| f > 0.0));
     }
-    let status = tokio::time::timeout(Duration::from_secs(30), app.child.wait())
+    let status = tokio::time::timeout(Duration::from_secs(30), app.child().wait())
         .await
         .expect("the server exits after draining")
         .expect("wait");
@@ -196,7 +197,7 @@ async fn readiness_turns_off_before_the_listener_closes() {
     // Order, not wall time: readiness turns off first; then, still inside the delay, the
     // service is alive and computes; then it exits. The delay (4 s) is long against the
     // polling and one small force curve so that the order holds on a loaded machine.
-    let mut app = spawn_app_with(&["--shutdown-delay-s", "4"], &[], Logs::Quiet).await;
+    let mut app = spawn_binary_with(&["--shutdown-delay-s", "4"], &[], Logs::Quiet).await;
     assert_eq!(app.get("/readyz").await.status().as_u16(), 200);
     app.terminate();
     // Within the delay: not ready (a problem with Retry-After), alive, and refusing new work.
@@ -223,7 +224,7 @@ async fn readiness_turns_off_before_the_listener_closes() {
     assert_eq!(problem["type"], "urn:ringdrag:problem:shutting-down");
     let r = app.get("/v1/materials").await;
     expect_problem(r, 503).await;
-    let status = tokio::time::timeout(Duration::from_secs(20), app.child.wait())
+    let status = tokio::time::timeout(Duration::from_secs(20), app.child().wait())
         .await
         .expect("the server exits after the delay")
         .expect("wait");

@@ -3,7 +3,7 @@
 //! request example of the OpenAPI document answers 200. The workbench itself is driven in a
 //! real browser by `.ci/browser-test.cjs`.
 
-use crate::helpers::{Logs, spawn_app, spawn_app_with};
+use crate::helpers::{start_app, start_app_with};
 use serde_json::Value;
 
 async fn get_text(base: &str, path: &str) -> (u16, String, String) {
@@ -20,7 +20,7 @@ async fn get_text(base: &str, path: &str) -> (u16, String, String) {
 
 #[tokio::test]
 async fn the_index_points_to_the_reference_and_the_workbench() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let (status, content_type, body) = get_text(&app.base, "/").await;
     assert_eq!(status, 200);
     assert!(content_type.starts_with("text/html"), "{content_type}");
@@ -30,12 +30,7 @@ async fn the_index_points_to_the_reference_and_the_workbench() {
 #[tokio::test]
 async fn the_reference_and_the_workbench_are_served_from_the_binary() {
     // With keys configured the pages stay open; only /v1/ needs a key.
-    let app = spawn_app_with(
-        &["--api-keys", "9f3c1a7e5b2d48c6a0e4f1b9d7c35a82"],
-        &[],
-        Logs::Quiet,
-    )
-    .await;
+    let app = start_app_with(&["--api-keys", "9f3c1a7e5b2d48c6a0e4f1b9d7c35a82"]).await;
     let (status, _, body) = get_text(&app.base, "/docs/").await;
     assert_eq!(status, 200, "{body}");
     assert!(body.contains("swagger-ui"), "{body}");
@@ -62,7 +57,7 @@ async fn the_reference_and_the_workbench_are_served_from_the_binary() {
 
 #[tokio::test]
 async fn request_examples_of_the_document_answer_200() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let doc: Value = app
         .get("/openapi.json")
         .await

@@ -1,37 +1,15 @@
 //! SVG plots (`Accept: image/svg+xml`): well-formed XML, axis titles with units, a key, lines
 //! that carry the data, and content negotiation (406, errors staying problem documents).
 
-use crate::helpers::{TestApp, expect_problem, rel, sample_design, spawn_app};
+use crate::helpers::{
+    TestApp, expect_ok_as, expect_problem, post_accepting, rel, sample_design, start_app,
+};
 use serde_json::{Value, json};
-
-/// `POST path` asking for `accept`.
-async fn post_accepting(
-    app: &TestApp,
-    path: &str,
-    accept: &str,
-    body: &Value,
-) -> reqwest::Response {
-    app.client
-        .post(format!("{}{path}", app.base))
-        .header("accept", accept)
-        .json(body)
-        .send()
-        .await
-        .expect("request sent")
-}
 
 /// The SVG answer of `POST path`, checked to be `image/svg+xml`.
 async fn post_svg(app: &TestApp, path: &str, body: &Value) -> String {
     let response = post_accepting(app, path, "image/svg+xml", body).await;
-    let status = response.status().as_u16();
-    let content_type = response
-        .headers()
-        .get("content-type")
-        .and_then(|v| v.to_str().ok())
-        .unwrap_or_default()
-        .to_string();
-    let text = response.text().await.expect("body");
-    assert_eq!(status, 200, "{text}");
+    let (content_type, text) = expect_ok_as(response, "image/svg+xml").await;
     assert_eq!(content_type, "image/svg+xml");
     text
 }
@@ -130,7 +108,7 @@ fn number_after(label: &str, prefix: &str) -> f64 {
 
 #[tokio::test]
 async fn the_force_curve_plot_is_an_svg_with_titled_axes_and_the_speeds_marked() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let request = json!({ "design": sample_design() });
     let curve = app.post_ok("/v1/force-curve", &request).await;
     let svg = parse_svg(&post_svg(&app, "/v1/force-curve", &request).await);
@@ -180,7 +158,7 @@ async fn the_force_curve_plot_is_an_svg_with_titled_axes_and_the_speeds_marked()
 
 #[tokio::test]
 async fn the_stroke_plot_has_two_panels_over_time() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let request = json!({
         "design": sample_design(),
         "start": { "position_m": -0.03, "speed_m_per_s": 0.0 },
@@ -251,7 +229,7 @@ async fn the_stroke_plot_has_two_panels_over_time() {
 
 #[tokio::test]
 async fn extreme_inputs_still_draw_promptly() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     // Speeds down to the smallest subnormal number, values at the ends of the f64 range: the
     // logarithmic axes keep to twelve decades and normal numbers, so every plot finishes
     // (source: IEEE 754 binary64 ranges; a regression test for a tick loop that never ended).
@@ -296,7 +274,7 @@ async fn extreme_inputs_still_draw_promptly() {
 
 #[tokio::test]
 async fn the_sweep_plot_draws_a_line_per_second_axis_value() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let request = json!({
         "design": sample_design(),
         "vary": [
@@ -333,7 +311,7 @@ async fn the_sweep_plot_draws_a_line_per_second_axis_value() {
 
 #[tokio::test]
 async fn negotiation_picks_the_representation_and_refuses_the_unknown() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let request = json!({ "design": sample_design(), "speeds_m_per_s": [0.01, 0.1, 1.0] });
     // Weights decide (source: RFC 9110, section 12.5.1).
     let r = post_accepting(
@@ -419,7 +397,7 @@ async fn negotiation_picks_the_representation_and_refuses_the_unknown() {
 
 #[tokio::test]
 async fn twelve_sweep_lines_have_twelve_styles_and_a_tile_reads() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let payloads: Vec<f64> = (0..12).map(|i| 0.05 * f64::from(i)).collect();
     let request = json!({
         "design": sample_design(),

@@ -1,7 +1,7 @@
 //! Saturation: past its one job slot the service sheds work with 503 and `Retry-After`, while
 //! `/healthz` and `/readyz` keep answering promptly.
 
-use crate::helpers::{Logs, expect_problem, heavy_force_curve, spawn_app_with};
+use crate::helpers::{expect_problem, heavy_force_curve, start_app_with};
 use serde_json::json;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering};
@@ -16,18 +16,14 @@ const CLIENTS: usize = 4;
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn a_saturated_service_sheds_load_and_stays_live() {
     // One slot, a 10 ms queue wait, and no cache (every request must compute).
-    let app = spawn_app_with(
-        &[
-            "--max-concurrent-jobs",
-            "1",
-            "--queue-wait-ms",
-            "10",
-            "--cache-entries",
-            "0",
-        ],
-        &[],
-        Logs::Quiet,
-    )
+    let app = start_app_with(&[
+        "--max-concurrent-jobs",
+        "1",
+        "--queue-wait-ms",
+        "10",
+        "--cache-entries",
+        "0",
+    ])
     .await;
     // Calibration: one heavy job alone, timed on this machine now.
     let started = Instant::now();

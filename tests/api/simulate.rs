@@ -1,7 +1,7 @@
 //! `POST /v1/simulate` against closed forms.
 
 use crate::force_curve::assert_standing_caution_first;
-use crate::helpers::{G0, error_paths, expect_problem, rel, sample_design, spawn_app};
+use crate::helpers::{G0, error_paths, expect_problem, rel, sample_design, start_app};
 use serde_json::{Value, json};
 
 fn f(v: &Value) -> f64 {
@@ -19,16 +19,15 @@ fn series(body: &Value, name: &str) -> Vec<f64> {
 
 #[tokio::test]
 async fn a_tube_of_negligible_conductivity_gives_free_fall() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let length_m = 0.5;
-    let design = json!({
-        "magnets": { "grade": "N42", "outer_diameter_m": 0.012, "length_m": 0.02 },
-        "tube": {
-            "conductivity_s_per_m": 1.0e-3,
-            "inner_diameter_m": 0.013,
-            "wall_thickness_m": 0.0015,
-            "length_m": length_m
-        }
+    // The sample design in a tube of the same size but of negligible conductivity.
+    let mut design = sample_design();
+    design["tube"] = json!({
+        "conductivity_s_per_m": 1.0e-3,
+        "inner_diameter_m": 0.013,
+        "wall_thickness_m": 0.0015,
+        "length_m": length_m
     });
     let body = app
         .post_ok(
@@ -86,7 +85,7 @@ async fn a_tube_of_negligible_conductivity_gives_free_fall() {
 
 #[tokio::test]
 async fn horizontal_entry_stops_after_the_linear_drag_distance() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     // An invented horizontal slide: the stack starts mid-tube at 0.5 m/s in a poor conductor.
     let mut design = sample_design();
     design["tube"]["material"] = Value::Null;
@@ -146,7 +145,7 @@ async fn a_drop_through_copper_closes_the_energy_ledger_to_the_time_step_error()
     // c v: the ledger below measures the time step only, a scale error in c would cancel.
     // Braking and heat against outside references: tests/api/examples.rs (mid-tube speed of
     // this drop against the exact tube integral) and model/tests/highspeed.rs.
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body = app
         .post_ok(
             "/v1/simulate",
@@ -200,7 +199,7 @@ async fn a_drop_through_copper_closes_the_energy_ledger_to_the_time_step_error()
 
 #[tokio::test]
 async fn a_tiny_ring_width_is_a_job_above_the_limits() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let response = app
         .post_json(
             "/v1/simulate",

@@ -1,7 +1,7 @@
 //! `POST /v1/size`: the sized value checked by an independent force-curve call, hot against
 //! cold, infeasible targets, tolerance bands, and bad requests named by field.
 
-use crate::helpers::{TestApp, error_paths, expect_problem, rel, spawn_app};
+use crate::helpers::{TestApp, error_paths, expect_problem, post_accepting, rel, start_app};
 use serde_json::{Value, json};
 
 /// Invented scenario: two 15 mm N42 discs, like poles facing, lowering a 0.35 kg payload down a
@@ -48,7 +48,7 @@ async fn terminal_speed_at(app: &TestApp, design: &Value, c: f64) -> Option<f64>
 
 #[tokio::test]
 async fn the_sized_wall_meets_the_target_hot_when_checked_by_a_separate_force_curve() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body = app.post_ok("/v1/size", &wall_request(0.6, 60.0)).await;
     assert_eq!(body["feasible"], true, "{body}");
     let wall = body["value"].as_f64().expect("a value");
@@ -113,7 +113,7 @@ async fn the_sized_wall_meets_the_target_hot_when_checked_by_a_separate_force_cu
 
 #[tokio::test]
 async fn hot_sizing_needs_more_wall_than_cold() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let cold = app.post_ok("/v1/size", &wall_request(0.6, 20.0)).await;
     let hot = app.post_ok("/v1/size", &wall_request(0.6, 60.0)).await;
     let cold_wall = cold["value"].as_f64().expect("cold feasible");
@@ -131,7 +131,7 @@ async fn hot_sizing_needs_more_wall_than_cold() {
 
 #[tokio::test]
 async fn an_unreachable_target_says_so() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     // 1 mm/s would need a wall far beyond 6 mm: the damping of a wall saturates as the outer
     // radius grows (1/a^3 - 1/b^3 tends to 1/a^3; source: Levin, da Silveira & Rizzato, Am. J.
     // Phys. 74, 815, 2006, integrated across the wall).
@@ -153,7 +153,7 @@ async fn an_unreachable_target_says_so() {
 
 #[tokio::test]
 async fn tolerance_bands_of_the_sized_design_hold_the_hot_value() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let mut request = wall_request(0.6, 60.0);
     request["tolerances"] = json!({ "conductivity_fraction": 0.05, "remanence_fraction": 0.02 });
     let body = app.post_ok("/v1/size", &request).await;
@@ -177,7 +177,7 @@ async fn tolerance_bands_of_the_sized_design_hold_the_hot_value() {
 
 #[tokio::test]
 async fn bad_sizing_requests_name_every_field_at_once() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body = json!({
         "design": lowering_design(),
         "vary": { "path": "tube.wall_thickness_m", "min": 0.004, "max": 0.001 },
@@ -209,13 +209,7 @@ async fn bad_sizing_requests_name_every_field_at_once() {
     let problem = expect_problem(app.post_json("/v1/size", &typo).await, 422).await;
     assert_eq!(error_paths(&problem), ["target.max_terminal_sped_m_per_s"]);
     // Sizing answers JSON only.
-    let response = app
-        .client
-        .post(format!("{}/v1/size", app.base))
-        .header("accept", "image/svg+xml")
-        .json(&wall_request(0.6, 60.0))
-        .send()
-        .await
-        .expect("sent");
+    let response =
+        post_accepting(&app, "/v1/size", "image/svg+xml", &wall_request(0.6, 60.0)).await;
     expect_problem(response, 406).await;
 }

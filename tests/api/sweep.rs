@@ -3,7 +3,8 @@
 //! requests named by field.
 
 use crate::helpers::{
-    Logs, TestApp, error_paths, expect_problem, rel, sample_design, spawn_app, spawn_app_with,
+    Logs, TestApp, error_paths, expect_problem, rel, sample_design, spawn_binary_with, start_app,
+    start_app_with,
 };
 use futures_util::StreamExt;
 use serde_json::{Value, json};
@@ -55,7 +56,7 @@ pub(crate) async fn post_ndjson(app: &TestApp, body: &Value) -> Vec<(Duration, V
 
 #[tokio::test]
 async fn terminal_speed_falls_with_the_wall_and_each_point_equals_a_force_curve_call() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let body = app
         .post_ok(
             "/v1/sweep",
@@ -108,7 +109,7 @@ async fn terminal_speed_falls_with_the_wall_and_each_point_equals_a_force_curve_
 
 #[tokio::test]
 async fn the_stream_has_a_header_one_line_per_point_and_an_end_line() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let request = json!({
         "design": sample_design(),
         "vary": [
@@ -180,7 +181,7 @@ fn heavy_sweep(steps: u32) -> Value {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn a_stream_past_the_request_timeout_ends_with_an_incomplete_end_line() {
-    let app = spawn_app_with(&["--request-timeout-s", "1"], &[], Logs::Quiet).await;
+    let app = start_app_with(&["--request-timeout-s", "1"]).await;
     let lines = post_ndjson(&app, &heavy_sweep(8000)).await;
     let (arrived, end) = lines.last().expect("lines");
     assert_eq!(end["kind"], "end", "{end}");
@@ -202,7 +203,7 @@ async fn a_stream_past_the_request_timeout_ends_with_an_incomplete_end_line() {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn a_client_that_goes_away_frees_the_slot_when_the_computation_ends() {
-    let app = spawn_app_with(&["--max-concurrent-jobs", "1"], &[], Logs::Quiet).await;
+    let app = start_app_with(&["--max-concurrent-jobs", "1"]).await;
     let response = app
         .client
         .post(format!("{}/v1/sweep", app.base))
@@ -244,7 +245,9 @@ async fn a_client_that_goes_away_frees_the_slot_when_the_computation_ends() {
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn the_first_point_arrives_while_a_large_sweep_still_computes() {
-    let app = spawn_app_with(&["--request-timeout-s", "600"], &[], Logs::Quiet).await;
+    // A process of its own: a long sweep keeps rayon's pool busy, and the pool is per
+    // process (see `bounded::red_team_requests_are_refused_or_bounded`).
+    let app = spawn_binary_with(&["--request-timeout-s", "600"], &[], Logs::Quiet).await;
     let request = heavy_sweep(800);
     let started = Instant::now();
     let response = app
@@ -310,7 +313,7 @@ fn sweep_jobs_in_flight(metrics: &str) -> f64 {
 
 #[tokio::test]
 async fn a_failed_point_keeps_its_error_and_the_others_still_arrive() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     // The bore is 13 mm: a 14 mm magnet does not fit (source: geometry, common practice).
     let request = json!({
         "design": sample_design(),
@@ -344,7 +347,7 @@ async fn a_failed_point_keeps_its_error_and_the_others_still_arrive() {
 
 #[tokio::test]
 async fn bad_sweeps_are_refused_naming_the_field() {
-    let app = spawn_app_with(&["--max-sweep-points", "100"], &[], Logs::Quiet).await;
+    let app = start_app_with(&["--max-sweep-points", "100"]).await;
     let cases = [
         (
             json!([{ "path": "tube.colour_m", "values": [1.0] }]),

@@ -1,7 +1,7 @@
 //! Tolerance bands on `POST /v1/force-curve`: the bands hold the nominal values and their ends
 //! follow the scaling laws of the braking force.
 
-use crate::helpers::{error_paths, expect_problem, rel, sample_design, spawn_app};
+use crate::helpers::{error_paths, expect_problem, rel, sample_design, start_app};
 use serde_json::{Value, json};
 
 fn band(body: &Value, metric: &str) -> (f64, f64) {
@@ -18,7 +18,7 @@ fn band(body: &Value, metric: &str) -> (f64, f64) {
 
 #[tokio::test]
 async fn bands_hold_the_nominal_and_follow_the_scaling_laws() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     let (sigma_tol, br_tol) = (0.05, 0.02);
     let body = app
         .post_ok(
@@ -86,7 +86,7 @@ async fn bands_hold_the_nominal_and_follow_the_scaling_laws() {
 
 #[tokio::test]
 async fn a_corner_that_does_not_fit_is_reported() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     // A 12 mm magnet in a 13 mm bore: 0.6 mm of diameter tolerance on each makes the corner
     // "magnet large, bore small" a 12.6 mm magnet in a 12.4 mm bore (source: geometry).
     let body = app
@@ -111,7 +111,7 @@ async fn a_corner_that_does_not_fit_is_reported() {
 
 #[tokio::test]
 async fn bad_tolerances_are_named() {
-    let app = spawn_app().await;
+    let app = start_app().await;
     for (tolerances, path) in [
         (
             json!({ "conductivity_fraction": 0.7 }),
