@@ -116,6 +116,11 @@ fn field_problem(path: &serde_path_to_error::Path, message: &str) -> FieldProble
 }
 
 /// Parses `bytes` as a `T`, mapping errors to 400 (not JSON) or 422 (wrong shape).
+///
+/// # Errors
+///
+/// A 400 problem for malformed JSON, a 422 problem naming the field for JSON of the wrong
+/// shape.
 pub fn parse_json<T: DeserializeOwned>(bytes: &[u8]) -> Result<T, ApiError> {
     let mut de = serde_json::Deserializer::from_slice(bytes);
     let value = serde_path_to_error::deserialize::<_, T>(&mut de).map_err(|err| {

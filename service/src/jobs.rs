@@ -129,6 +129,11 @@ impl JobRunner {
     /// the model stops computing points nobody will read. It returns its outcome label for `ringdrag_jobs_total`
     /// (`ok`, `timeout`, `client_gone`...). A panic in `work` is logged and counted as
     /// `internal`.
+    ///
+    /// # Errors
+    ///
+    /// A 503 problem when no job slot frees up within the queue wait, or the job's deadline
+    /// passes.
     pub async fn start<F>(&self, job: &'static str, work: F) -> Result<(), ApiError>
     where
         F: FnOnce(CancelToken) -> &'static str + Send + 'static,
@@ -176,6 +181,12 @@ impl JobRunner {
     /// call, so time spent waiting for a slot is part of the request timeout. `work` gets the
     /// job's [`CancelToken`] (pass it to the model in `Limits::cancel`); it fires at the
     /// deadline and when this future is dropped before the work ends.
+    ///
+    /// # Errors
+    ///
+    /// A 503 problem when no slot frees up within the queue wait or the deadline passes (the
+    /// job is cancelled), the model's error mapped to its problem, or a 500 when the job
+    /// panicked.
     pub async fn run<T, F>(&self, job: &'static str, work: F) -> Result<T, ApiError>
     where
         F: FnOnce(CancelToken) -> Result<T, ApiError> + Send + 'static,

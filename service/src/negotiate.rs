@@ -119,6 +119,10 @@ fn media_ranges(headers: &HeaderMap) -> Vec<MediaRange> {
 
 /// The representation to answer with, from the `Accept` header and the representations the
 /// endpoint `offers` (in its order of preference, at least one); 406 when none is acceptable.
+///
+/// # Errors
+///
+/// A 406 problem listing the offered media types when the Accept header admits none of them.
 pub fn choose(headers: &HeaderMap, offers: &[Media]) -> Result<Media, ApiError> {
     let ranges = media_ranges(headers);
     let not_acceptable = || ApiError::NotAcceptable {

@@ -170,104 +170,113 @@ impl ApiError {
         }
     }
 
-    /// The problem document of this error.
-    pub fn problem(&self) -> Problem {
-        let status = self.status();
-        let (name, title, detail, errors) = match self {
-            Self::MalformedJson(d) => (
+    /// Type name, title, detail and field problems of an error in the request itself.
+    fn request_wording(&self) -> Option<Wording> {
+        match self {
+            Self::MalformedJson(d) => Some((
                 Some("malformed-json"),
                 "Malformed JSON",
                 format!("The request body is not well-formed JSON: {d}"),
                 None,
-            ),
-            Self::UnsupportedMediaType(d) => (None, "Unsupported Media Type", d.clone(), None),
-            Self::PayloadTooLarge { limit_bytes } => (
+            )),
+            Self::UnsupportedMediaType(d) => {
+                Some((None, "Unsupported Media Type", d.clone(), None))
+            }
+            Self::PayloadTooLarge { limit_bytes } => Some((
                 None,
                 "Payload Too Large",
                 format!("The request body exceeds the service limit of {limit_bytes} bytes."),
                 None,
-            ),
-            Self::Invalid(errs) => (
+            )),
+            Self::Invalid(errs) => Some((
                 Some("invalid-input"),
                 "Invalid input",
                 summary("The request has invalid fields", errs),
                 Some(errs.clone()),
-            ),
-            Self::JobTooLarge(errs) => (
+            )),
+            Self::JobTooLarge(errs) => Some((
                 Some("job-too-large"),
                 "Job above the service limits",
                 summary("The job exceeds a limit of this service", errs),
                 Some(errs.clone()),
-            ),
-            Self::NotComputable(d) => (
+            )),
+            Self::NotComputable(d) => Some((
                 Some("not-computable"),
                 "Not computable",
                 format!(
                     "The model could not compute this input: {}. Change the design or the \
-                     resolution.",
+                         resolution.",
                     d.trim_end().trim_end_matches('.')
                 ),
                 None,
-            ),
-            Self::NotFound(path) => (
+            )),
+            Self::NotFound(path) => Some((
                 None,
                 "Not Found",
                 format!("No resource at {path}; see GET /openapi.json for the routes."),
                 None,
-            ),
-            Self::MethodNotAllowed => (
+            )),
+            Self::MethodNotAllowed => Some((
                 None,
                 "Method Not Allowed",
                 "This resource does not support the request method; the Allow header lists \
-                 those it does."
+                     those it does."
                     .to_string(),
                 None,
-            ),
-            Self::NotAcceptable { offered } => (
+            )),
+            Self::NotAcceptable { offered } => Some((
                 None,
                 "Not Acceptable",
                 format!(
                     "The Accept header allows none of the representations of this resource; it \
-                     can answer with {}.",
+                         can answer with {}.",
                     offered.join(", ")
                 ),
                 None,
-            ),
-            Self::Overloaded { retry_after_s } => (
+            )),
+            _ => None,
+        }
+    }
+
+    /// Type name, title, detail and field problems of an error of the service's state (load,
+    /// limits, access, shutdown, internal failure).
+    fn service_wording(&self) -> Option<Wording> {
+        match self {
+            Self::Overloaded { retry_after_s } => Some((
                 Some("overloaded"),
                 "Service overloaded",
                 format!(
                     "Every computation slot stayed busy for the whole queue wait; retry in about \
-                     {retry_after_s} s."
+                         {retry_after_s} s."
                 ),
                 None,
-            ),
-            Self::TooManyConnections { limit } => (
+            )),
+            Self::TooManyConnections { limit } => Some((
                 Some("overloaded"),
                 "Service overloaded",
                 format!(
                     "The service already holds its maximum of {limit} open connections; retry \
-                     in about 1 s, or reuse a kept-alive connection."
+                         in about 1 s, or reuse a kept-alive connection."
                 ),
                 None,
-            ),
-            Self::Timeout { timeout_s, .. } => (
+            )),
+            Self::Timeout { timeout_s, .. } => Some((
                 Some("timeout"),
                 "Request timed out",
                 format!(
                     "The request did not finish within {timeout_s} s. Retry later, or ask for \
-                     less work (fewer speeds or samples, a coarser resolution, a shorter time)."
+                         less work (fewer speeds or samples, a coarser resolution, a shorter time)."
                 ),
                 None,
-            ),
-            Self::ShuttingDown => (
+            )),
+            Self::ShuttingDown => Some((
                 Some("shutting-down"),
                 "Shutting down",
                 "The service is shutting down and takes no new work; retry on another instance."
                     .to_string(),
                 None,
-            ),
-            Self::Unauthorized { wrong_key } => (
+            )),
+            Self::Unauthorized { wrong_key } => Some((
                 Some("unauthorized"),
                 "Unauthorized",
                 if *wrong_key {
@@ -277,22 +286,37 @@ impl ApiError {
                         .to_string()
                 },
                 None,
-            ),
-            Self::RateLimited { retry_after_s } => (
+            )),
+            Self::RateLimited { retry_after_s } => Some((
                 Some("rate-limited"),
                 "Too many requests",
                 format!("This client used up its request allowance; retry in {retry_after_s} s."),
                 None,
-            ),
-            Self::Internal(_) => (
+            )),
+            Self::Internal(_) => Some((
                 Some("internal"),
                 "Internal error",
                 "The service failed unexpectedly; the request id in the x-request-id header \
-                 identifies the log entry."
+                     identifies the log entry."
                     .to_string(),
                 None,
-            ),
-        };
+            )),
+            _ => None,
+        }
+    }
+
+    /// The problem document of this error.
+    pub fn problem(&self) -> Problem {
+        let status = self.status();
+        let (name, title, detail, errors) = self
+            .request_wording()
+            .or_else(|| self.service_wording())
+            .unwrap_or((
+                Some("internal"),
+                "Internal error",
+                "The service failed unexpectedly.".to_string(),
+                None,
+            ));
         Problem {
             problem_type: name.map_or_else(
                 || "about:blank".to_string(),
@@ -309,6 +333,14 @@ impl ApiError {
         }
     }
 }
+
+/// Type name (None: `about:blank`), title, detail and field problems of a problem document.
+type Wording = (
+    Option<&'static str>,
+    &'static str,
+    String,
+    Option<Vec<FieldProblem>>,
+);
 
 fn summary(lead: &str, errs: &[FieldProblem]) -> String {
     let listed: Vec<String> = errs

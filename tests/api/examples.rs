@@ -62,7 +62,7 @@ fn exact_copper_drop_at_58_ms_per_m() -> (f64, f64, f64) {
 }
 
 /// C12200 is 85 %IACS, 0.85 x 58.0 MS/m (source: ASTM B88 / Copper Development Association,
-/// >= 85 %IACS; IACS 100 % = 58.0 MS/m by IEC 60028). The exact force depends on sigma and v
+/// at least 85 %IACS; IACS 100 % = 58.0 MS/m by IEC 60028). The exact force depends on sigma and v
 /// only through sigma v (q^2 = k^2 - i mu0 sigma v k) and one factor sigma v outside, so
 /// damping scales as sigma, the peak force not at all, the critical speed as 1/sigma.
 const C12200_OVER_FIXTURE: f64 = 0.85;

@@ -126,6 +126,11 @@ pub(crate) fn check_design(spec: &DesignSpec, errors: &mut Vec<FieldProblem>) ->
 
 impl ForceCurveRequest {
     /// The validated design and options, or every problem found.
+    ///
+    /// # Errors
+    ///
+    /// A 422 problem listing every invalid field of the design and the options, or a 413 when
+    /// the curve is larger than `limits` allow.
     pub fn validate(self, limits: &Limits) -> Result<(Design, ForceCurveOptions), ApiError> {
         let mut errors = Vec::new();
         let design = check_design(&self.design, &mut errors);
@@ -210,6 +215,11 @@ pub struct ForceCurveResponse {
 
 impl ForceCurveResponse {
     /// The response record of a model result; refuses non-finite numbers.
+    ///
+    /// # Errors
+    ///
+    /// A 500 problem naming every output field whose value is not finite (the model never
+    /// returns one on purpose).
     pub fn from_model(curve: ForceCurve) -> Result<Self, ApiError> {
         let mut check = FiniteCheck::default();
         let points = curve
@@ -285,7 +295,7 @@ impl ForceCurveResponse {
             headers(("Retry-After" = u64, description = "Seconds to wait before retrying."))),
     )
 )]
-pub async fn compute_force_curve(
+pub(crate) async fn compute_force_curve(
     State(state): State<AppState>,
     headers: HeaderMap,
     query: Result<Query<PlotOptions>, QueryRejection>,

@@ -56,7 +56,7 @@ pub async fn healthz() -> Json<Health> {
             headers(("Retry-After" = u64, description = "Seconds to wait before retrying."))),
     )
 )]
-pub async fn readyz(State(state): State<AppState>) -> Result<Json<Readiness>, ApiError> {
+pub(crate) async fn readyz(State(state): State<AppState>) -> Result<Json<Readiness>, ApiError> {
     if !state.is_ready() {
         return Err(ApiError::ShuttingDown);
     }

@@ -170,6 +170,10 @@ impl FiniteCheck {
     }
 
     /// `value` when every checked number was finite; otherwise a `not-computable` problem.
+    ///
+    /// # Errors
+    ///
+    /// A 500 problem naming every output field whose value is not finite.
     pub fn finish<T>(self, value: T) -> Result<T, ApiError> {
         if self.bad.is_empty() {
             Ok(value)

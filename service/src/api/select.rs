@@ -216,6 +216,11 @@ fn push_model_error(err: ModelError, errors: &mut Vec<FieldProblem>) {
 
 impl SelectRequest {
     /// The validated selection, or every problem found.
+    ///
+    /// # Errors
+    ///
+    /// A 422 problem listing every invalid field (catalogue, targets, tolerances, stroke), or a
+    /// 413 when the enumeration is larger than `limits` allow.
     pub fn validate(self, limits: &Limits) -> Result<ValidSelect, ApiError> {
         let mut errors = Vec::new();
         let mut too_large = Vec::new();
@@ -329,7 +334,7 @@ impl SelectRequest {
             headers(("Retry-After" = u64, description = "Seconds to wait before retrying."))),
     )
 )]
-pub async fn select_parts(
+pub(crate) async fn select_parts(
     State(state): State<AppState>,
     headers: HeaderMap,
     ApiJson(request): ApiJson<SelectRequest>,

@@ -119,6 +119,11 @@ pub(crate) fn stroke_options(
 
 impl SimulateRequest {
     /// The validated design and options, or every problem found.
+    ///
+    /// # Errors
+    ///
+    /// A 422 problem listing every invalid field of the design and the stroke options, or a 413
+    /// when the stroke is larger than `limits` allow.
     pub fn validate(self, limits: &Limits) -> Result<(Design, StrokeOptions), ApiError> {
         let mut errors = Vec::new();
         let mut too_large = Vec::new();
@@ -230,6 +235,11 @@ pub struct SimulateResponse {
 
 impl SimulateResponse {
     /// The response record of a model result; refuses non-finite numbers.
+    ///
+    /// # Errors
+    ///
+    /// A 500 problem naming every output field whose value is not finite (the model never
+    /// returns one on purpose).
     pub fn from_model(stroke: Stroke) -> Result<Self, ApiError> {
         let mut c = FiniteCheck::default();
         let s = stroke.summary;
@@ -330,7 +340,7 @@ impl SimulateResponse {
             headers(("Retry-After" = u64, description = "Seconds to wait before retrying."))),
     )
 )]
-pub async fn simulate_stroke(
+pub(crate) async fn simulate_stroke(
     State(state): State<AppState>,
     headers: HeaderMap,
     query: Result<Query<PlotOptions>, QueryRejection>,

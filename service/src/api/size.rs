@@ -124,6 +124,11 @@ fn push_model_error(err: ModelError, errors: &mut Vec<FieldProblem>) {
 
 impl SizeRequest {
     /// The validated job, or every problem found.
+    ///
+    /// # Errors
+    ///
+    /// A 422 problem listing every invalid field (design, sized field and range, targets,
+    /// tolerances), or a 413 when the search is larger than `limits` allow.
     pub fn validate(self, limits: &Limits) -> Result<ValidSize, ApiError> {
         let mut errors = Vec::new();
         let mut too_large = Vec::new();
@@ -291,6 +296,11 @@ fn finite_map(map: BTreeMap<String, Option<f64>>) -> BTreeMap<String, Option<f64
 impl SizeResponse {
     /// The response record of a model result; refuses non-finite numbers where a number is
     /// due, and writes unbounded margins as null.
+    ///
+    /// # Errors
+    ///
+    /// A 500 problem naming every output field whose value is not finite (the model never
+    /// returns one on purpose).
     pub fn from_model(
         result: SizeResult,
         field: DesignField,
@@ -367,7 +377,7 @@ impl SizeResponse {
             headers(("Retry-After" = u64, description = "Seconds to wait before retrying."))),
     )
 )]
-pub async fn size_design(
+pub(crate) async fn size_design(
     State(state): State<AppState>,
     headers: HeaderMap,
     ApiJson(request): ApiJson<SizeRequest>,

@@ -260,6 +260,11 @@ pub struct ValidSweep {
 
 impl SweepRequest {
     /// The validated sweep, or every problem found.
+    ///
+    /// # Errors
+    ///
+    /// A 422 problem listing every invalid field (axes, metrics, design, stroke options), or a
+    /// 413 when the grid is larger than `limits` allow.
     pub fn validate(self, limits: &Limits) -> Result<ValidSweep, ApiError> {
         let mut errors = Vec::new();
         let mut too_large = Vec::new();
@@ -513,6 +518,10 @@ fn axes_dto(plan: &SweepPlan, requested: &[PlotAxis]) -> Vec<SweepAxisDto> {
 
 impl SweepResponse {
     /// The response record of a finished sweep.
+    ///
+    /// # Errors
+    ///
+    /// A 500 problem naming the output fields whose values are not finite.
     pub fn new(sweep: &ValidSweep, points: Vec<SweepPoint>) -> Result<Self, ApiError> {
         let asked = sweep.plan.metrics();
         let points: Vec<SweepPointDto> = points
@@ -820,7 +829,7 @@ async fn stream_sweep(state: &AppState, sweep: ValidSweep) -> Result<Response, A
             headers(("Retry-After" = u64, description = "Seconds to wait before retrying."))),
     )
 )]
-pub async fn sweep_design(
+pub(crate) async fn sweep_design(
     State(state): State<AppState>,
     headers: HeaderMap,
     query: Result<Query<PlotOptions>, QueryRejection>,

@@ -28,6 +28,10 @@ fn styles() -> [LineStyle; 4] {
 /// The force-speed curve on logarithmic axes: braking force, the driving force of the load,
 /// and the terminal and critical speeds. Speeds and forces of zero are left out (a logarithmic
 /// axis has no zero); the caller makes sure at least one speed is positive.
+///
+/// # Errors
+///
+/// A [`PlotError`] when the curve has no speed above 0 to draw, or the drawing backend fails.
 pub fn force_curve_svg(
     curve: &ForceCurveResponse,
     design: &DesignSpec,
@@ -63,42 +67,7 @@ pub fn force_curve_svg(
         .filter(|p| p.0 >= v_lo && p.1 >= f_lo)
         .collect();
     let [force, drive, critical, terminal] = styles();
-    let entry = |label: String, style: LineStyle| KeyEntry {
-        label,
-        style,
-        with_marker: false,
-    };
-    let mut key = vec![entry("braking force in a long tube".into(), force)];
-    if curve.drive_force_n > 0.0 {
-        key.push(entry(
-            format!(
-                "driving force of the load, {} N",
-                format_number(curve.drive_force_n)
-            ),
-            drive,
-        ));
-    }
-    key.push(entry(
-        format!(
-            "critical speed {} m/s (peak {} N)",
-            format_number(curve.critical_speed_m_per_s),
-            format_number(curve.peak_force_n)
-        ),
-        critical,
-    ));
-    let terminal_words = match curve.terminal_speed_m_per_s {
-        Some(vt) => {
-            let label = format!("terminal speed {} m/s", format_number(vt));
-            key.push(entry(label.clone(), terminal));
-            label
-        }
-        None if curve.drive_force_n > curve.peak_force_n => {
-            let label = "no terminal speed: the load exceeds the peak force".to_string();
-            key.push(entry(label.clone(), terminal));
-            label
-        }
-        None => "no driving force, so no terminal speed".to_string(),
-    };
+    let (key, terminal_words) = key_entries(curve, [force, drive, critical, terminal]);
     let summary = design_summary(design);
     let frame = Frame {
         title: "Braking force against speed".into(),
@@ -164,4 +133,49 @@ pub fn force_curve_svg(
         }
         Ok(())
     })
+}
+
+/// The key of the force-curve plot (braking force, driving force, critical and terminal
+/// speed) and the words for the terminal speed in the plot's description.
+fn key_entries(
+    curve: &ForceCurveResponse,
+    [force, drive, critical, terminal]: [LineStyle; 4],
+) -> (Vec<KeyEntry>, String) {
+    let entry = |label: String, style: LineStyle| KeyEntry {
+        label,
+        style,
+        with_marker: false,
+    };
+    let mut key = vec![entry("braking force in a long tube".into(), force)];
+    if curve.drive_force_n > 0.0 {
+        key.push(entry(
+            format!(
+                "driving force of the load, {} N",
+                format_number(curve.drive_force_n)
+            ),
+            drive,
+        ));
+    }
+    key.push(entry(
+        format!(
+            "critical speed {} m/s (peak {} N)",
+            format_number(curve.critical_speed_m_per_s),
+            format_number(curve.peak_force_n)
+        ),
+        critical,
+    ));
+    let terminal_words = match curve.terminal_speed_m_per_s {
+        Some(vt) => {
+            let label = format!("terminal speed {} m/s", format_number(vt));
+            key.push(entry(label.clone(), terminal));
+            label
+        }
+        None if curve.drive_force_n > curve.peak_force_n => {
+            let label = "no terminal speed: the load exceeds the peak force".to_string();
+            key.push(entry(label.clone(), terminal));
+            label
+        }
+        None => "no driving force, so no terminal speed".to_string(),
+    };
+    (key, terminal_words)
 }

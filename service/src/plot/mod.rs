@@ -78,6 +78,10 @@ pub struct PlotOptions {
 
 impl PlotOptions {
     /// Checks the options' ranges; every problem named by its query parameter.
+    ///
+    /// # Errors
+    ///
+    /// A 422 problem listing every plot option out of range.
     pub fn check(&self) -> Result<(), ApiError> {
         let mut errors = Vec::new();
         if let Some(w) = self.width_px
@@ -123,6 +127,10 @@ impl PlotOptions {
 
 /// The query options of a plot route as a handler receives them: a malformed query string is
 /// an invalid-input problem naming the query.
+///
+/// # Errors
+///
+/// An invalid-input problem (422) naming `query` when the query string is malformed or names an unknown option.
 pub fn options_from_query(
     query: Result<axum::extract::Query<PlotOptions>, axum::extract::rejection::QueryRejection>,
 ) -> Result<PlotOptions, ApiError> {

@@ -66,6 +66,10 @@ fn title(stroke: &SimulateResponse) -> String {
 
 /// A stroke in two panels sharing the horizontal axis: speed above, braking force below, with
 /// the moments (or places) the stack enters the tube and reaches its far end.
+///
+/// # Errors
+///
+/// A [`PlotError`] when the drawing backend fails (answered as a 500 problem).
 pub fn stroke_svg(
     stroke: &SimulateResponse,
     design: &DesignSpec,

@@ -113,23 +113,25 @@ fn marker_points(run: &[(f64, f64)], k: usize, g: usize) -> Vec<(f64, f64)> {
         .map(|(_, p)| *p)
         .collect()
 }
+/// Points of one plotted line each, keyed by the positions of their values on the axes after
+/// the first (in the order the request lists them), with the line's label.
+type PointGroups<'a> = BTreeMap<Vec<usize>, (String, Vec<&'a SweepPointDto>)>;
 
-/// A sweep: one panel per metric against the first axis, one line per combination of the
-/// other axes. The caller keeps the line count within [`super::MAX_SWEEP_LINES`].
-pub fn sweep_svg(
-    axes: &[PlotAxis],
-    metrics: &[Metric],
-    points: &[SweepPointDto],
-    design: &DesignSpec,
-    version: &str,
-    method: &str,
-    options: &PlotOptions,
-) -> Result<String, PlotError> {
-    let Some(x_axis) = axes.first() else {
-        return Err(PlotError("a sweep without axes".into()));
-    };
-    let x_scale = field_scale(x_axis.field);
-    // Group the points by the values of the other axes, in the order the request lists them.
+/// The first axis's padded range in display units.
+fn x_range_of(x_axis: &PlotAxis, x_scale: f64) -> Result<std::ops::Range<f64>, PlotError> {
+    let x_lo = x_axis.values.iter().copied().fold(f64::INFINITY, f64::min) * x_scale;
+    let x_hi = x_axis
+        .values
+        .iter()
+        .copied()
+        .fold(f64::NEG_INFINITY, f64::max)
+        * x_scale;
+    padded(x_lo.min(x_hi), x_hi.max(x_lo))
+        .ok_or_else(|| PlotError("the first axis's values do not fit one axis".into()))
+}
+
+/// Groups the points by the values of the other axes, in the order the request lists them.
+fn group_points<'a>(axes: &[PlotAxis], points: &'a [SweepPointDto]) -> PointGroups<'a> {
     let mut groups: BTreeMap<Vec<usize>, (String, Vec<&SweepPointDto>)> = BTreeMap::new();
     for p in points {
         let mut key = Vec::new();
@@ -150,10 +152,14 @@ pub fn sweep_svg(
             .1
             .push(p);
     }
-    let n_lines = groups.len();
-    let key: Vec<KeyEntry> = if axes.len() == 1 {
+    groups
+}
+
+/// The key: one entry per line (one for a one-axis sweep).
+fn sweep_key(n_axes: usize, n_points: usize, groups: &PointGroups<'_>) -> Vec<KeyEntry> {
+    if n_axes == 1 {
         vec![KeyEntry {
-            label: format!("{} points (failed points leave gaps)", points.len()),
+            label: format!("{} points (failed points leave gaps)", n_points),
             style: line_style(0),
             with_marker: true,
         }]
@@ -167,16 +173,32 @@ pub fn sweep_svg(
                 with_marker: true,
             })
             .collect()
+    }
+}
+
+/// A sweep: one panel per metric against the first axis, one line per combination of the
+/// other axes. The caller keeps the line count within [`super::MAX_SWEEP_LINES`].
+///
+/// # Errors
+///
+/// A [`PlotError`] for a sweep without axes, or when the drawing backend fails.
+pub fn sweep_svg(
+    axes: &[PlotAxis],
+    metrics: &[Metric],
+    points: &[SweepPointDto],
+    design: &DesignSpec,
+    version: &str,
+    method: &str,
+    options: &PlotOptions,
+) -> Result<String, PlotError> {
+    let Some(x_axis) = axes.first() else {
+        return Err(PlotError("a sweep without axes".into()));
     };
-    let x_lo = x_axis.values.iter().copied().fold(f64::INFINITY, f64::min) * x_scale;
-    let x_hi = x_axis
-        .values
-        .iter()
-        .copied()
-        .fold(f64::NEG_INFINITY, f64::max)
-        * x_scale;
-    let x_range = padded(x_lo.min(x_hi), x_hi.max(x_lo))
-        .ok_or_else(|| PlotError("the first axis's values do not fit one axis".into()))?;
+    let x_scale = field_scale(x_axis.field);
+    let groups = group_points(axes, points);
+    let n_lines = groups.len();
+    let key = sweep_key(axes.len(), points.len(), &groups);
+    let x_range = x_range_of(x_axis, x_scale)?;
     let x_title = field_axis_title(x_axis.field);
     let panels = metrics.len().max(1);
     let summary = design_summary(design);
