@@ -122,6 +122,40 @@ struct Row {
     estimate: f64,
 }
 
+/// Prints the validation table (run with `--nocapture`) and returns the share of rows whose
+/// estimate bounds the error.
+fn print_table(rows: &[Row], paths: &[(String, f64, f64)]) -> f64 {
+    println!(
+        "{:<32} {:<44} {:>10} {:>10} {:>7}",
+        "design", "quantity", "error %", "estimate %", "ratio"
+    );
+    for r in rows {
+        println!(
+            "{:<32} {:<44} {:>10.4} {:>10.4} {:>7.2}",
+            r.name,
+            r.what,
+            100.0 * r.error,
+            100.0 * r.estimate,
+            r.estimate / r.error.max(1e-300)
+        );
+    }
+    let bounded = rows.iter().filter(|r| r.estimate >= r.error).count();
+    let coverage = bounded as f64 / rows.len() as f64;
+    println!(
+        "estimate >= error in {bounded} of {} rows ({:.1} %)",
+        rows.len(),
+        100.0 * coverage
+    );
+    for (name, gap, allowed) in paths {
+        println!(
+            "{name}: mid-tube speed vs force-curve terminal speed {:.4} %, larger estimate {:.4} %",
+            100.0 * gap,
+            100.0 * allowed
+        );
+    }
+    coverage
+}
+
 #[test]
 fn default_resolution_is_accurate_and_the_estimate_bounds_the_error() {
     let limits = Limits::default();
@@ -200,34 +234,7 @@ fn default_resolution_is_accurate_and_the_estimate_bounds_the_error() {
         });
     }
 
-    println!(
-        "{:<32} {:<44} {:>10} {:>10} {:>7}",
-        "design", "quantity", "error %", "estimate %", "ratio"
-    );
-    for r in &rows {
-        println!(
-            "{:<32} {:<44} {:>10.4} {:>10.4} {:>7.2}",
-            r.name,
-            r.what,
-            100.0 * r.error,
-            100.0 * r.estimate,
-            r.estimate / r.error.max(1e-300)
-        );
-    }
-    let bounded = rows.iter().filter(|r| r.estimate >= r.error).count();
-    let coverage = bounded as f64 / rows.len() as f64;
-    println!(
-        "estimate >= error in {bounded} of {} rows ({:.1} %)",
-        rows.len(),
-        100.0 * coverage
-    );
-    for (name, gap, allowed) in &paths {
-        println!(
-            "{name}: mid-tube speed vs force-curve terminal speed {:.4} %, larger estimate {:.4} %",
-            100.0 * gap,
-            100.0 * allowed
-        );
-    }
+    let coverage = print_table(&rows, &paths);
     // source: issue requirement (at least 30 designs).
     assert!(designs.len() >= 30, "{} designs", designs.len());
     for r in &rows {
