@@ -214,220 +214,25 @@ fn pathological_body(n: u64) -> (&'static str, Value) {
     }
 }
 
-async fn run(args: Args) -> Result<(), String> {
-    raise_own_file_limit();
-    let duration = Duration::from_secs(args.duration_s.clamp(5, 300));
-    let idle_n = args.idle.min(2000);
-    let slow_heads = args.slow_heads.min(500);
-    let slow_bodies = args.slow_bodies.min(500);
-    let heavy = args.heavy.min(64);
-    let pathological = args.pathological.min(8);
-    let churn = args.churn.min(2000);
-    let burst = args.burst.min(2000);
-    let server = start(&args).await?;
-    let (base, pid) = (server.url.clone(), server.pid);
-    let addr = Arc::new(base.trim_start_matches("http://").to_string());
-    let counters = Arc::new(Counters::default());
-    let stop = Arc::new(AtomicBool::new(false));
-    let started = Instant::now();
-    let rss_start = rss_kib(pid).unwrap_or(0);
-    let load_start = load_average();
-    let mut tasks = Vec::new();
+/// What the health probes and memory samples saw.
+struct Probes {
+    kept_ms: Vec<f64>,
+    fresh_ms: Vec<f64>,
+    kept_failed: u64,
+    fresh_refused: u64,
+    fresh_failed: u64,
+    rss_peak: u64,
+}
 
-    // Idle connections, reopened when closed.
-    for _ in 0..idle_n {
-        let (addr, c, stop) = (Arc::clone(&addr), Arc::clone(&counters), Arc::clone(&stop));
-        tasks.push(tokio::spawn(async move {
-            while !stop.load(Ordering::Relaxed) {
-                let Ok(mut s) = TcpStream::connect(addr.as_str()).await else {
-                    c.connect_failed.fetch_add(1, Ordering::Relaxed);
-                    tokio::time::sleep(Duration::from_secs(1)).await;
-                    continue;
-                };
-                c.idle_opened.fetch_add(1, Ordering::Relaxed);
-                while !stop.load(Ordering::Relaxed) {
-                    if closed_within(&mut s, Duration::from_secs(1)).await {
-                        c.idle_closed_by_server.fetch_add(1, Ordering::Relaxed);
-                        break;
-                    }
-                }
-            }
-        }));
-    }
-    // Slow heads and slow bodies, reconnecting when cut off.
-    for i in 0..(slow_heads + slow_bodies) {
-        let body = i >= slow_heads;
-        let (addr, c, stop) = (Arc::clone(&addr), Arc::clone(&counters), Arc::clone(&stop));
-        tasks.push(tokio::spawn(async move {
-            while !stop.load(Ordering::Relaxed) {
-                let Ok(mut s) = TcpStream::connect(addr.as_str()).await else {
-                    c.connect_failed.fetch_add(1, Ordering::Relaxed);
-                    tokio::time::sleep(Duration::from_secs(1)).await;
-                    continue;
-                };
-                let (first, trickle): (Vec<u8>, &[u8]) = if body {
-                    (
-                        b"POST /v1/force-curve HTTP/1.1\r\nHost: soak\r\nContent-Type: \
-                          application/json\r\nContent-Length: 5000\r\n\r\n"
-                            .to_vec(),
-                        b"{\"design\": {\"magnets\": {\"grade\": \"N42\"",
-                    )
-                } else {
-                    (
-                        Vec::new(),
-                        b"GET /healthz HTTP/1.1\r\nHost: soak\r\nX-Slow: aaaaaaaaaaaaaaaaaaaa",
-                    )
-                };
-                if s.write_all(&first).await.is_err() {
-                    continue;
-                }
-                let mut cut = false;
-                for byte in trickle {
-                    if stop.load(Ordering::Relaxed) {
-                        break;
-                    }
-                    if s.write_all(&[*byte]).await.is_err() {
-                        cut = true;
-                        break;
-                    }
-                    // Wait 2 s, noticing a close or an answer meanwhile.
-                    let mut buf = [0u8; 2048];
-                    match tokio::time::timeout(Duration::from_secs(2), s.read(&mut buf)).await {
-                        Ok(Ok(0) | Err(_)) => {
-                            cut = true;
-                            break;
-                        }
-                        Ok(Ok(_)) => {
-                            c.slow_answered.fetch_add(1, Ordering::Relaxed);
-                            cut = closed_within(&mut s, Duration::from_secs(5)).await;
-                            break;
-                        }
-                        Err(_) => {}
-                    }
-                }
-                if cut {
-                    c.slow_cut.fetch_add(1, Ordering::Relaxed);
-                }
-            }
-        }));
-    }
-    // Heavy and pathological jobs.
-    let client = reqwest::Client::builder()
-        .timeout(Duration::from_secs(120))
-        .build()
-        .map_err(|e| e.to_string())?;
-    static N: AtomicU64 = AtomicU64::new(0);
-    for _ in 0..heavy {
-        let (client, c, stop, base) = (
-            client.clone(),
-            Arc::clone(&counters),
-            Arc::clone(&stop),
-            base.clone(),
-        );
-        tasks.push(tokio::spawn(async move {
-            while !stop.load(Ordering::Relaxed) {
-                let n = N.fetch_add(1, Ordering::Relaxed);
-                let r = client
-                    .post(format!("{base}/v1/simulate"))
-                    .header("content-type", "application/json")
-                    .body(heavy_body(n))
-                    .send()
-                    .await;
-                match r.map(|r| r.status().as_u16()) {
-                    Ok(200) => c.heavy_ok.fetch_add(1, Ordering::Relaxed),
-                    Ok(503) => {
-                        tokio::time::sleep(Duration::from_millis(200)).await;
-                        c.heavy_503.fetch_add(1, Ordering::Relaxed)
-                    }
-                    _ => c.heavy_other.fetch_add(1, Ordering::Relaxed),
-                };
-            }
-        }));
-    }
-    for _ in 0..pathological {
-        let (client, c, stop, base) = (
-            client.clone(),
-            Arc::clone(&counters),
-            Arc::clone(&stop),
-            base.clone(),
-        );
-        tasks.push(tokio::spawn(async move {
-            while !stop.load(Ordering::Relaxed) {
-                let n = N.fetch_add(1, Ordering::Relaxed);
-                let (path, body) = pathological_body(n);
-                let t = Instant::now();
-                let r = client
-                    .post(format!("{base}{path}"))
-                    .json(&body)
-                    .send()
-                    .await;
-                let (status, kind) = match r {
-                    Ok(r) => {
-                        let status = r.status().as_u16();
-                        let v: Value = r.json().await.unwrap_or(Value::Null);
-                        let kind = v["type"].as_str().unwrap_or("ok").to_string();
-                        (status, kind)
-                    }
-                    Err(e) => (0, format!("transport: {e}")),
-                };
-                c.patho_answers
-                    .lock()
-                    .await
-                    .push((status, kind, t.elapsed().as_secs_f64()));
-                tokio::time::sleep(Duration::from_millis(200)).await;
-            }
-        }));
-    }
-    // Churn waves every 20 s, and one burst half-way.
-    {
-        let (addr, c, stop) = (Arc::clone(&addr), Arc::clone(&counters), Arc::clone(&stop));
-        let half = duration / 2;
-        tasks.push(tokio::spawn(async move {
-            let mut burst_done = false;
-            let mut wave = tokio::time::interval(Duration::from_secs(20));
-            while !stop.load(Ordering::Relaxed) {
-                wave.tick().await;
-                if stop.load(Ordering::Relaxed) {
-                    break;
-                }
-                // A wave: `churn` connections, 100 at a time.
-                let mut left = churn;
-                while left > 0 && !stop.load(Ordering::Relaxed) {
-                    let batch = left.min(100);
-                    left -= batch;
-                    let mut js = Vec::new();
-                    for _ in 0..batch {
-                        let addr = Arc::clone(&addr);
-                        js.push(tokio::spawn(async move { one_request(&addr).await }));
-                    }
-                    for j in js {
-                        match j.await.ok().flatten() {
-                            Some(200) => c.churn_ok.fetch_add(1, Ordering::Relaxed),
-                            Some(503) => c.churn_503.fetch_add(1, Ordering::Relaxed),
-                            _ => c.churn_failed.fetch_add(1, Ordering::Relaxed),
-                        };
-                    }
-                }
-                if !burst_done && started.elapsed() >= half {
-                    burst_done = true;
-                    let mut js = Vec::new();
-                    for _ in 0..burst {
-                        let addr = Arc::clone(&addr);
-                        js.push(tokio::spawn(async move { one_request(&addr).await }));
-                    }
-                    for j in js {
-                        match j.await.ok().flatten() {
-                            Some(200) => c.burst_ok.fetch_add(1, Ordering::Relaxed),
-                            Some(503) => c.burst_503.fetch_add(1, Ordering::Relaxed),
-                            _ => c.burst_failed.fetch_add(1, Ordering::Relaxed),
-                        };
-                    }
-                }
-            }
-        }));
-    }
-
-    // Probes and memory samples.
+/// Probes `/healthz` on a kept-alive connection every sample and on a fresh one every fifth,
+/// and samples the server's resident memory, until `duration` has passed since `started`.
+async fn probe_until(
+    base: &str,
+    pid: u32,
+    started: Instant,
+    duration: Duration,
+    rss_start: u64,
+) -> Result<Probes, String> {
     let probe_client = reqwest::Client::builder()
         .timeout(Duration::from_secs(10))
         .pool_max_idle_per_host(1)
@@ -465,63 +270,19 @@ async fn run(args: Args) -> Result<(), String> {
         }
         tokio::time::sleep(SAMPLE_EVERY).await;
     }
-    stop.store(true, Ordering::Relaxed);
-    let rss_at_stop = rss_kib(pid).unwrap_or(0);
-    for t in tasks {
-        let _ = tokio::time::timeout(Duration::from_secs(15), t).await;
-    }
-    drop(probe_client);
-    tokio::time::sleep(Duration::from_secs(5)).await;
-    let rss_after = rss_kib(pid).unwrap_or(0);
-    let metrics = reqwest::get(format!("{base}/metrics"))
-        .await
-        .map_err(|e| e.to_string())?
-        .text()
-        .await
-        .map_err(|e| e.to_string())?;
-    let metric = |name: &str| -> f64 {
-        metrics
-            .lines()
-            .filter(|l| l.starts_with(name))
-            .filter_map(|l| l.rsplit(' ').next()?.parse::<f64>().ok())
-            .fold(0.0, |a, b| a + b)
-    };
+    Ok(Probes {
+        kept_ms,
+        fresh_ms,
+        kept_failed,
+        fresh_refused,
+        fresh_failed,
+        rss_peak,
+    })
+}
 
-    kept_ms.sort_by(f64::total_cmp);
-    fresh_ms.sort_by(f64::total_cmp);
-    let c = &counters;
+/// The client-side counters as table rows.
+async fn print_counters(c: &Counters, burst: usize) {
     let get = |a: &AtomicU64| a.load(Ordering::Relaxed);
-    println!(
-        "soak: {} s, server {base} (open-file limit {}), {} cores; idle {idle_n}, slow heads \
-         {slow_heads}, slow bodies {slow_bodies}, heavy {heavy}, pathological {pathological}, \
-         churn {churn} per 20 s wave, burst {burst}",
-        duration.as_secs(),
-        args.server_file_limit,
-        std::thread::available_parallelism().map_or(1, std::num::NonZeroUsize::get)
-    );
-    println!(
-        "machine load average (1 min) at start / end: {} / {} (other work on the machine \
-         shares the cores)",
-        load_start,
-        load_average()
-    );
-    println!();
-    println!("| figure | value |");
-    println!("|---|---|");
-    println!(
-        "| /healthz, kept-alive probe every 100 ms: p50 / p99 / max ms (failed) | {:.2} / {:.2} / {:.2} ({kept_failed} of {}) |",
-        percentile(&kept_ms, 0.5),
-        percentile(&kept_ms, 0.99),
-        kept_ms.last().copied().unwrap_or(f64::NAN),
-        kept_ms.len() as u64 + kept_failed
-    );
-    println!(
-        "| /healthz, fresh connection every 500 ms: p50 / p99 / max ms (503 refused, failed) | {:.2} / {:.2} / {:.2} ({fresh_refused}, {fresh_failed} of {}) |",
-        percentile(&fresh_ms, 0.5),
-        percentile(&fresh_ms, 0.99),
-        fresh_ms.last().copied().unwrap_or(f64::NAN),
-        fresh_ms.len() as u64 + fresh_refused + fresh_failed
-    );
     println!(
         "| heavy strokes: 200 / 503 / other | {} / {} / {} |",
         get(&c.heavy_ok),
@@ -566,6 +327,349 @@ async fn run(args: Args) -> Result<(), String> {
         get(&c.burst_503),
         get(&c.burst_failed)
     );
+}
+
+/// Starts the load: idle and slow connections, heavy and pathological jobs, churn waves and
+/// the burst; every task stops when `stop` is raised.
+fn spawn_load(
+    (idle_n, slow_heads, slow_bodies): (usize, usize, usize),
+    (heavy, pathological, churn, burst): (usize, usize, usize, usize),
+    base: &str,
+    counters: &Arc<Counters>,
+    stop: &Arc<AtomicBool>,
+    (started, duration): (Instant, Duration),
+) -> Result<Vec<tokio::task::JoinHandle<()>>, String> {
+    let addr = Arc::new(base.trim_start_matches("http://").to_string());
+    let base = base.to_string();
+    let mut tasks = Vec::new();
+
+    // Idle connections, reopened when closed.
+    for _ in 0..idle_n {
+        let (addr, c, stop) = (Arc::clone(&addr), Arc::clone(counters), Arc::clone(stop));
+        tasks.push(tokio::spawn(idle_connection(addr, c, stop)));
+    }
+    // Slow heads and slow bodies, reconnecting when cut off.
+    for i in 0..(slow_heads + slow_bodies) {
+        let (addr, c, stop) = (Arc::clone(&addr), Arc::clone(counters), Arc::clone(stop));
+        tasks.push(tokio::spawn(slow_client(addr, c, stop, i >= slow_heads)));
+    }
+    // Heavy and pathological jobs.
+    let client = reqwest::Client::builder()
+        .timeout(Duration::from_secs(120))
+        .build()
+        .map_err(|e| e.to_string())?;
+    for _ in 0..heavy {
+        let (c, stop) = (Arc::clone(counters), Arc::clone(stop));
+        tasks.push(tokio::spawn(heavy_client(
+            client.clone(),
+            c,
+            stop,
+            base.clone(),
+        )));
+    }
+    for _ in 0..pathological {
+        let (c, stop) = (Arc::clone(counters), Arc::clone(stop));
+        tasks.push(tokio::spawn(pathological_client(
+            client.clone(),
+            c,
+            stop,
+            base.clone(),
+        )));
+    }
+    // Churn waves every 20 s, and one burst half-way.
+    {
+        let (addr, c, stop) = (Arc::clone(&addr), Arc::clone(counters), Arc::clone(stop));
+        let half = duration / 2;
+        tasks.push(tokio::spawn(churn_waves(
+            addr,
+            c,
+            stop,
+            (started, half),
+            (churn, burst),
+        )));
+    }
+
+    Ok(tasks)
+}
+
+/// Distinct request numbers, so that no request is a cache hit.
+static N: AtomicU64 = AtomicU64::new(0);
+
+/// One idle connection, reopened when the server closes it.
+async fn idle_connection(addr: Arc<String>, c: Arc<Counters>, stop: Arc<AtomicBool>) {
+    while !stop.load(Ordering::Relaxed) {
+        let Ok(mut s) = TcpStream::connect(addr.as_str()).await else {
+            c.connect_failed.fetch_add(1, Ordering::Relaxed);
+            tokio::time::sleep(Duration::from_secs(1)).await;
+            continue;
+        };
+        c.idle_opened.fetch_add(1, Ordering::Relaxed);
+        while !stop.load(Ordering::Relaxed) {
+            if closed_within(&mut s, Duration::from_secs(1)).await {
+                c.idle_closed_by_server.fetch_add(1, Ordering::Relaxed);
+                break;
+            }
+        }
+    }
+}
+
+/// One slow client (a trickled head, or a trickled body when `body`), reconnecting when
+/// cut off.
+async fn slow_client(addr: Arc<String>, c: Arc<Counters>, stop: Arc<AtomicBool>, body: bool) {
+    while !stop.load(Ordering::Relaxed) {
+        let Ok(mut s) = TcpStream::connect(addr.as_str()).await else {
+            c.connect_failed.fetch_add(1, Ordering::Relaxed);
+            tokio::time::sleep(Duration::from_secs(1)).await;
+            continue;
+        };
+        let (first, trickle): (Vec<u8>, &[u8]) = if body {
+            (
+                b"POST /v1/force-curve HTTP/1.1\r\nHost: soak\r\nContent-Type: \
+                  application/json\r\nContent-Length: 5000\r\n\r\n"
+                    .to_vec(),
+                b"{\"design\": {\"magnets\": {\"grade\": \"N42\"",
+            )
+        } else {
+            (
+                Vec::new(),
+                b"GET /healthz HTTP/1.1\r\nHost: soak\r\nX-Slow: aaaaaaaaaaaaaaaaaaaa",
+            )
+        };
+        if s.write_all(&first).await.is_err() {
+            continue;
+        }
+        let mut cut = false;
+        for byte in trickle {
+            if stop.load(Ordering::Relaxed) {
+                break;
+            }
+            if s.write_all(&[*byte]).await.is_err() {
+                cut = true;
+                break;
+            }
+            // Wait 2 s, noticing a close or an answer meanwhile.
+            let mut buf = [0u8; 2048];
+            match tokio::time::timeout(Duration::from_secs(2), s.read(&mut buf)).await {
+                Ok(Ok(0) | Err(_)) => {
+                    cut = true;
+                    break;
+                }
+                Ok(Ok(_)) => {
+                    c.slow_answered.fetch_add(1, Ordering::Relaxed);
+                    cut = closed_within(&mut s, Duration::from_secs(5)).await;
+                    break;
+                }
+                Err(_) => {}
+            }
+        }
+        if cut {
+            c.slow_cut.fetch_add(1, Ordering::Relaxed);
+        }
+    }
+}
+
+/// One client posting heavy strokes, each a little different.
+async fn heavy_client(
+    client: reqwest::Client,
+    c: Arc<Counters>,
+    stop: Arc<AtomicBool>,
+    base: String,
+) {
+    while !stop.load(Ordering::Relaxed) {
+        let n = N.fetch_add(1, Ordering::Relaxed);
+        let r = client
+            .post(format!("{base}/v1/simulate"))
+            .header("content-type", "application/json")
+            .body(heavy_body(n))
+            .send()
+            .await;
+        match r.map(|r| r.status().as_u16()) {
+            Ok(200) => c.heavy_ok.fetch_add(1, Ordering::Relaxed),
+            Ok(503) => {
+                tokio::time::sleep(Duration::from_millis(200)).await;
+                c.heavy_503.fetch_add(1, Ordering::Relaxed)
+            }
+            _ => c.heavy_other.fetch_add(1, Ordering::Relaxed),
+        };
+    }
+}
+
+/// One client posting the work-bomb requests in turn.
+async fn pathological_client(
+    client: reqwest::Client,
+    c: Arc<Counters>,
+    stop: Arc<AtomicBool>,
+    base: String,
+) {
+    while !stop.load(Ordering::Relaxed) {
+        let n = N.fetch_add(1, Ordering::Relaxed);
+        let (path, body) = pathological_body(n);
+        let t = Instant::now();
+        let r = client
+            .post(format!("{base}{path}"))
+            .json(&body)
+            .send()
+            .await;
+        let (status, kind) = match r {
+            Ok(r) => {
+                let status = r.status().as_u16();
+                let v: Value = r.json().await.unwrap_or(Value::Null);
+                let kind = v["type"].as_str().unwrap_or("ok").to_string();
+                (status, kind)
+            }
+            Err(e) => (0, format!("transport: {e}")),
+        };
+        c.patho_answers
+            .lock()
+            .await
+            .push((status, kind, t.elapsed().as_secs_f64()));
+        tokio::time::sleep(Duration::from_millis(200)).await;
+    }
+}
+
+/// Churn waves of `churn` short connections every 20 s, and one burst of `burst` at once
+/// after `half`.
+async fn churn_waves(
+    addr: Arc<String>,
+    c: Arc<Counters>,
+    stop: Arc<AtomicBool>,
+    (started, half): (Instant, Duration),
+    (churn, burst): (usize, usize),
+) {
+    let mut burst_done = false;
+    let mut wave = tokio::time::interval(Duration::from_secs(20));
+    while !stop.load(Ordering::Relaxed) {
+        wave.tick().await;
+        if stop.load(Ordering::Relaxed) {
+            break;
+        }
+        // A wave: `churn` connections, 100 at a time.
+        let mut left = churn;
+        while left > 0 && !stop.load(Ordering::Relaxed) {
+            let batch = left.min(100);
+            left -= batch;
+            let mut js = Vec::new();
+            for _ in 0..batch {
+                let addr = Arc::clone(&addr);
+                js.push(tokio::spawn(async move { one_request(&addr).await }));
+            }
+            for j in js {
+                match j.await.ok().flatten() {
+                    Some(200) => c.churn_ok.fetch_add(1, Ordering::Relaxed),
+                    Some(503) => c.churn_503.fetch_add(1, Ordering::Relaxed),
+                    _ => c.churn_failed.fetch_add(1, Ordering::Relaxed),
+                };
+            }
+        }
+        if !burst_done && started.elapsed() >= half {
+            burst_done = true;
+            let mut js = Vec::new();
+            for _ in 0..burst {
+                let addr = Arc::clone(&addr);
+                js.push(tokio::spawn(async move { one_request(&addr).await }));
+            }
+            for j in js {
+                match j.await.ok().flatten() {
+                    Some(200) => c.burst_ok.fetch_add(1, Ordering::Relaxed),
+                    Some(503) => c.burst_503.fetch_add(1, Ordering::Relaxed),
+                    _ => c.burst_failed.fetch_add(1, Ordering::Relaxed),
+                };
+            }
+        }
+    }
+}
+
+async fn run(args: Args) -> Result<(), String> {
+    raise_own_file_limit();
+    let duration = Duration::from_secs(args.duration_s.clamp(5, 300));
+    let idle_n = args.idle.min(2000);
+    let slow_heads = args.slow_heads.min(500);
+    let slow_bodies = args.slow_bodies.min(500);
+    let heavy = args.heavy.min(64);
+    let pathological = args.pathological.min(8);
+    let churn = args.churn.min(2000);
+    let burst = args.burst.min(2000);
+    let server = start(&args).await?;
+    let (base, pid) = (server.url.clone(), server.pid);
+    let counters = Arc::new(Counters::default());
+    let stop = Arc::new(AtomicBool::new(false));
+    let started = Instant::now();
+    let rss_start = rss_kib(pid).unwrap_or(0);
+    let load_start = load_average();
+    let tasks = spawn_load(
+        (idle_n, slow_heads, slow_bodies),
+        (heavy, pathological, churn, burst),
+        &base,
+        &counters,
+        &stop,
+        (started, duration),
+    )?;
+
+    // Probes and memory samples.
+    let Probes {
+        mut kept_ms,
+        mut fresh_ms,
+        kept_failed,
+        fresh_refused,
+        fresh_failed,
+        rss_peak,
+    } = probe_until(&base, pid, started, duration, rss_start).await?;
+    stop.store(true, Ordering::Relaxed);
+    let rss_at_stop = rss_kib(pid).unwrap_or(0);
+    for t in tasks {
+        let _ = tokio::time::timeout(Duration::from_secs(15), t).await;
+    }
+    tokio::time::sleep(Duration::from_secs(5)).await;
+    let rss_after = rss_kib(pid).unwrap_or(0);
+    let metrics = reqwest::get(format!("{base}/metrics"))
+        .await
+        .map_err(|e| e.to_string())?
+        .text()
+        .await
+        .map_err(|e| e.to_string())?;
+    let metric = |name: &str| -> f64 {
+        metrics
+            .lines()
+            .filter(|l| l.starts_with(name))
+            .filter_map(|l| l.rsplit(' ').next()?.parse::<f64>().ok())
+            .fold(0.0, |a, b| a + b)
+    };
+
+    kept_ms.sort_by(f64::total_cmp);
+    fresh_ms.sort_by(f64::total_cmp);
+    let c = &counters;
+    println!(
+        "soak: {} s, server {base} (open-file limit {}), {} cores; idle {idle_n}, slow heads \
+         {slow_heads}, slow bodies {slow_bodies}, heavy {heavy}, pathological {pathological}, \
+         churn {churn} per 20 s wave, burst {burst}",
+        duration.as_secs(),
+        args.server_file_limit,
+        std::thread::available_parallelism().map_or(1, std::num::NonZeroUsize::get)
+    );
+    println!(
+        "machine load average (1 min) at start / end: {} / {} (other work on the machine \
+         shares the cores)",
+        load_start,
+        load_average()
+    );
+    println!();
+    println!("| figure | value |");
+    println!("|---|---|");
+    println!(
+        "| /healthz, kept-alive probe every 100 ms: p50 / p99 / max ms (failed) | {:.2} / {:.2} / {:.2} ({kept_failed} of {}) |",
+        percentile(&kept_ms, 0.5),
+        percentile(&kept_ms, 0.99),
+        kept_ms.last().copied().unwrap_or(f64::NAN),
+        kept_ms.len() as u64 + kept_failed
+    );
+    println!(
+        "| /healthz, fresh connection every 500 ms: p50 / p99 / max ms (503 refused, failed) | {:.2} / {:.2} / {:.2} ({fresh_refused}, {fresh_failed} of {}) |",
+        percentile(&fresh_ms, 0.5),
+        percentile(&fresh_ms, 0.99),
+        fresh_ms.last().copied().unwrap_or(f64::NAN),
+        fresh_ms.len() as u64 + fresh_refused + fresh_failed
+    );
+    print_counters(c, burst).await;
     println!(
         "| server: connections refused (503 / closed), timed out | {} / {}, {} |",
         metric("ringdrag_connections_refused_total{answer=\"503\"}"),
